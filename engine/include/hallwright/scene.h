@@ -78,6 +78,9 @@ struct Scene {
     Vec3 DirectionFromModel(const Vec3& d) const;
 };
 
+/* Metres per model unit for "m", "cm", "mm", "in", "ft" (throws std::invalid_argument otherwise). */
+double ModelUnitScale(const std::string& units);
+
 /* Reads scene.toml and everything it names; errors go to diag and give nothing back. */
 std::optional<Scene> LoadScene(const std::string& path, Diagnostics& diag);
 
