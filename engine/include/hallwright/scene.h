@@ -44,6 +44,13 @@ struct SimulationSettings {
     std::vector<int> reportedBands = {1, 2, 3, 4, 5, 6};  // band indices (125 Hz - 4 kHz)
 };
 
+/* The [review] keys of the design review (issue 10). */
+struct ReviewSettings {
+    std::string venue = "concert";    // "concert" (stricter overhang limit) | "theatre"
+    double flutterMaxAngleDeg = 3.0;  // common practice, no source
+    SourceLoc definedAt;
+};
+
 /* A [[seating]] block: a grid of seats laid over the faces of OBJ groups. */
 struct SeatingBlock {
     std::string zone;
@@ -68,6 +75,7 @@ struct Scene {
     std::vector<SeatingBlock> seating;
     AirConditions air;
     SimulationSettings settings;
+    ReviewSettings review;
 
     /* Converts a point from the internal frame back to the model's units and axes. */
     Vec3 ToModel(const Vec3& p) const;
