@@ -12,7 +12,8 @@
 //   [k, k+1) ms after emission, spread uniformly inside the bin, so a limit such as t0 + 50 ms
 //   takes the matching fraction of the bin it falls in; specular impulses sit at their exact
 //   delays and count on the side of the limit they fall on (an impulse exactly at a limit
-//   counts as later, intervals are [a, b)).
+//   counts as later, intervals are [a, b)). No energy arrives before t0: the bin holding t0
+//   spreads its energy over [t0, bin end) only.
 // - Decay curves: Schroeder backward integration (1965) with an exponential tail
 //   compensation beyond the end of the record (Lundeby et al. 1995); T from a least-squares
 //   line on L(t) over 0..-10 dB (EDT), -5..-25 dB (T20), -5..-35 dB (T30) (ISO 3382-1/-2).
@@ -29,6 +30,7 @@
 #include "hallwright/bands.h"
 #include "hallwright/mesh.h"
 #include "hallwright/propagation.h"
+#include "hallwright/zones.h"
 
 namespace hallwright {
 
@@ -56,7 +58,7 @@ struct ParameterTable {
 };
 
 /* A just-noticeable difference (ISO 3382-1:2009 Table A.1 and others). */
-struct Jnd {
+struct ParameterJnd {
     const char* parameter;
     double value;     // in the parameter's unit, or a fraction when relative
     bool relative;    // true: JND = value x parameter (EDT, T20, T30)
@@ -64,7 +66,7 @@ struct Jnd {
 };
 
 /* JNDs travelling with the tables (sources in the `source` field). */
-inline constexpr std::array<Jnd, 12> kJndTable = {{
+inline constexpr std::array<ParameterJnd, 12> kJndTable = {{
     {"EDT", 0.05, true, "ISO 3382-1:2009 Table A.1 (from memory)"},
     {"T20", 0.05, true, "ISO 3382-1:2009 Table A.1 applied to T (from memory)"},
     {"T30", 0.05, true, "ISO 3382-1:2009 Table A.1 applied to T (from memory)"},
@@ -80,7 +82,7 @@ inline constexpr std::array<Jnd, 12> kJndTable = {{
 }};
 
 /* The JND of a parameter (a trailing "_M" is ignored), or nullptr. */
-const Jnd* FindJnd(const std::string& parameter);
+const ParameterJnd* FindJnd(const std::string& parameter);
 /* The JND in the parameter's unit at the given value (relative JNDs scale with it). */
 std::optional<double> JndAt(const std::string& parameter, double value);
 
@@ -112,6 +114,8 @@ struct EnergyEnvelope {
     double binStartS = 0;              // start time of bin 0
     double binWidthS = kBinWidthS;
     std::vector<double> bins;          // energy in [start + k w, start + (k + 1) w)
+    double earliestS = -1e300;         // no energy before this time: the bin containing it
+                                       // spreads its energy over [earliestS, bin end)
     std::vector<TimedEnergy> impulses; // any order
     double tailStartS = 0;             // tail energy rate tailRate e^(-tailDecay (t - start))
     double tailRate = 0;               // per second, for t >= tailStartS (0 = no tail)
@@ -159,10 +163,8 @@ BandParameters ComputeBandParameters(const BandInput& in);
    env.tail*. False when there are too few non-zero intervals. */
 bool FitTail(EnergyEnvelope& env, double t0, double endS);
 
-/* Delete-one jackknife standard error from B leave-one-out replicates. */
-double JackknifeStandardError(const std::vector<double>& leaveOneOut);
-/* Student's t quantile t(0.975, df) for df >= 1 (table to 30, then normal approximation). */
-double StudentT975(int df);
+// Jackknife helpers StudentT975 and JackknifeStandardError live in zones.h (shared with the
+// zone statistics, which consume ParameterValue::leaveOneOut as their replicates).
 
 // ---------------------------------------------------------------------------------------
 // Histogram path

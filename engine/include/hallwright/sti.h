@@ -32,6 +32,10 @@ StiResult ComputeSti(const Mtf& mtf, std::optional<double> speechLevelDbA = std:
                      const std::optional<std::array<double, kStiBands>>& transferDb = std::nullopt,
                      const std::optional<std::array<double, kStiBands>>& noiseDb = std::nullopt);
 
+/* Stationary noise at the given signal-to-noise ratio per band: m x 1/(1 + 10^(-SNR/10))
+   (IEC 60268-16; Houtgast & Steeneken), without masking or threshold terms. */
+Mtf ApplySignalToNoise(const Mtf& mtf, const std::array<double, kStiBands>& snrDb);
+
 /* Analytic MTF of an exponential energy decay with reverberation time T (Houtgast & Steeneken):
    m(F) = 1 / sqrt(1 + (2 pi F T / 13.8155)^2). */
 double ExponentialMtf(double frequencyHz, double reverberationS);

@@ -1,0 +1,235 @@
+// Histogram path: parameters of one (source, receiver) from its specular paths and the
+// tracer's batched histogram, with delete-one-batch jackknife intervals (metrics.h).
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <limits>
+
+#include "hallwright/diagnostics.h"
+#include "hallwright/metrics.h"
+#include "hallwright/sti.h"
+#include "metrics/parameter_rows.h"
+
+namespace hallwright {
+
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+/* Time zero: the earliest arrival within 20 dB of the broadband peak (ISO 3382-1 Annex A).
+   Impulses and 1 ms bins are compared as energies per bin. */
+double FindTimeZero(const ReceiverPaths& paths, const ReceiverHistogram& hist, bool& fromBins) {
+    double peak = 0;
+    for (const SpecularPath& p : paths.paths) peak = std::max(peak, p.energy.sum());
+    std::vector<double> broadband(hist.binCount, 0.0);
+    for (int k = 0; k < hist.binCount; ++k) {
+        double s = 0;
+        for (int b = 0; b < kBatchCount; ++b)
+            for (int band = 0; band < kBandCount; ++band) s += hist.Energy(b, k, band);
+        broadband[k] = s / kBatchCount;
+        peak = std::max(peak, broadband[k]);
+    }
+    double t0 = std::numeric_limits<double>::infinity();
+    fromBins = false;
+    for (const SpecularPath& p : paths.paths)
+        if (p.energy.sum() >= 0.01 * peak) t0 = std::min(t0, p.delayS);
+    for (int k = 0; k < hist.binCount; ++k) {
+        if (broadband[k] >= 0.01 * peak && peak > 0) {
+            // Tracer energy cannot arrive before the direct delay |S - R| / c.
+            const double tk = std::max(k * kBinWidthS, hist.directDelayS);
+            if (tk < t0) {
+                t0 = tk;
+                fromBins = true;
+            }
+            break;
+        }
+    }
+    return std::isfinite(t0) ? t0 : 0.0;
+}
+
+std::string Fmt(const char* fmt, double v) {
+    char buf[64];
+    std::snprintf(buf, sizeof buf, fmt, v);
+    return buf;
+}
+
+}  // namespace
+
+ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const ReceiverHistogram& hist,
+                                       const HistogramMetricsOptions& options) {
+    ParameterTable table;
+    const int binCount = hist.binCount;
+    const double endS = binCount * kBinWidthS;
+    HW_CHECK(hist.energy.size() == static_cast<size_t>(kBatchCount) * binCount * kBandCount,
+             "histogram energy has " + std::to_string(hist.energy.size()) + " entries");
+
+    bool fromBins = false;
+    const double t0 = FindTimeZero(paths, hist, fromBins);
+    table.timeZeroS = t0;
+    table.directOccluded = paths.directOccluded;
+    if (paths.directOccluded)
+        table.notes.push_back("direct sound occluded: time zero is the first arrival at " +
+                              Fmt("%.2f", t0 * 1000) + " ms");
+    if (fromBins)
+        table.notes.push_back("time zero taken from the tracer's histogram (no specular arrival "
+                              "within 20 dB of the peak)");
+
+    // Lateral axis: horizontal and perpendicular to the source direction.
+    std::optional<Vec3> srcDir = options.sourceDirection;
+    if (!srcDir)
+        for (const SpecularPath& p : paths.paths)
+            if (p.order == 0) srcDir = p.arrivalFrom;
+    std::optional<Vec3> lateralAxis;
+    std::string lateralNote;
+    if (srcDir) {
+        Vec3 a = options.up.cross(*srcDir);
+        if (a.norm() > 1e-6) lateralAxis = a.normalized();
+        else lateralNote = "source straight above or below the seat: no lateral axis";
+    } else {
+        lateralNote = "source direction unknown (direct path occluded and none given)";
+    }
+    const bool haveLateralRecord =
+        hist.lateralSq.size() == static_cast<size_t>(kBatchCount) * kLateralBins * kBandCount &&
+        hist.lateralAbs.size() == hist.lateralSq.size();
+    if (!haveLateralRecord && lateralNote.empty()) lateralNote = "no lateral record in the histogram";
+
+    // Replicates: 0 = all rays, 1..B = one batch each, B+1..2B = all but one batch.
+    const int replicates = 1 + 2 * kBatchCount;
+    auto weights = [&](int r, int b) {
+        if (r == 0) return 1.0 / kBatchCount;
+        if (r <= kBatchCount) return (b == r - 1) ? 1.0 : 0.0;
+        return (b == r - 1 - kBatchCount) ? 0.0 : 1.0 / (kBatchCount - 1);
+    };
+    std::vector<std::array<BandParameters, kBandCount>> results(replicates);
+    for (int r = 0; r < replicates; ++r) {
+        for (int band = 0; band < kBandCount; ++band) {
+            EnergyEnvelope omni, sq, ab;
+            omni.binStartS = 0;
+            omni.binWidthS = kBinWidthS;
+            omni.bins.assign(binCount, 0.0);
+            omni.earliestS = t0;
+            for (int b = 0; b < kBatchCount; ++b) {
+                const double w = weights(r, b);
+                if (w == 0) continue;
+                for (int k = 0; k < binCount; ++k) omni.bins[k] += w * hist.Energy(b, k, band);
+            }
+            for (const SpecularPath& p : paths.paths) omni.impulses.push_back({p.delayS, p.energy[band]});
+            FitTail(omni, t0, endS);
+            BandInput in;
+            in.omni = &omni;
+            in.timeZeroS = t0;
+            in.endS = endS;
+            in.gridS = kBinWidthS;
+            in.referenceEnergy = kReferenceEnergy10m;
+            if (lateralAxis && haveLateralRecord) {
+                for (EnergyEnvelope* e : {&sq, &ab}) {
+                    e->binStartS = hist.directDelayS;
+                    e->binWidthS = kLateralWindowS / kLateralBins;
+                    e->bins.assign(kLateralBins, 0.0);
+                    e->earliestS = t0;
+                }
+                for (int b = 0; b < kBatchCount; ++b) {
+                    const double w = weights(r, b);
+                    if (w == 0) continue;
+                    for (int k = 0; k < kLateralBins; ++k) {
+                        const size_t i = (static_cast<size_t>(b) * kLateralBins + k) * kBandCount + band;
+                        sq.bins[k] += w * hist.lateralSq[i];
+                        ab.bins[k] += w * hist.lateralAbs[i];
+                    }
+                }
+                for (const SpecularPath& p : paths.paths) {
+                    const double c = p.arrivalFrom.dot(*lateralAxis);
+                    sq.impulses.push_back({p.delayS, p.energy[band] * c * c});
+                    ab.impulses.push_back({p.delayS, p.energy[band] * std::fabs(c)});
+                }
+                in.lateralSq = &sq;
+                in.lateralAbs = &ab;
+                // The tracer's lateral record covers [direct, direct + 100 ms).
+                in.lateralValidFromS = hist.directDelayS;
+                in.lateralValidToS = hist.directDelayS + kLateralWindowS;
+            }
+            results[r][band] = ComputeBandParameters(in);
+            if (!in.lateralSq) results[r][band].lateralNote = lateralNote;
+        }
+    }
+
+    // STI per replicate (bands 125 Hz ... 8 kHz = indices 1 ... 7).
+    std::vector<StiResult> sti(replicates);
+    for (int r = 0; r < replicates; ++r) {
+        Mtf mtf;
+        std::array<double, kStiBands> transfer{};
+        for (int k = 0; k < kStiBands; ++k) {
+            mtf[k] = results[r][k + 1].mtf;
+            // Band energy re the 1 m free-field energy 1/(4 pi) of a unit source.
+            transfer[k] = 10.0 * std::log10(std::max(results[r][k + 1].totalEnergy, 1e-300) * 4.0 * M_PI);
+        }
+        std::optional<std::array<double, kStiBands>> noise;
+        if (options.speech.noiseOctaveDb) {
+            noise.emplace();
+            for (int k = 0; k < kStiBands; ++k) (*noise)[k] = (*options.speech.noiseOctaveDb)[k + 1];
+        }
+        sti[r] = ComputeSti(mtf, options.speech.speechLevelDbA,
+                            options.speech.Any() ? std::optional(transfer) : std::nullopt, noise);
+    }
+
+    // Rows: value from replicate 0, per-batch values, leave-one-out replicates, CI95.
+    using metrics_detail::RowBuilder;
+    RowBuilder rows(table, kBatchCount);
+    for (int band : options.bands) {
+        const int hz = kNominalBandHz[band];
+        auto get = [&](auto field) {
+            std::vector<std::optional<double>> v(replicates);
+            for (int r = 0; r < replicates; ++r) v[r] = field(results[r][band]);
+            return v;
+        };
+        const BandParameters& all = results[0][band];
+        rows.Add("EDT", hz, "s", get([](const BandParameters& p) { return p.edt; }), all.edtNote);
+        rows.Add("T20", hz, "s", get([](const BandParameters& p) { return p.t20; }), all.t20Note);
+        rows.Add("T30", hz, "s", get([](const BandParameters& p) { return p.t30; }), all.t30Note);
+        auto suggest = [&](double needDb) -> std::string {
+            if (all.decayEndDb <= needDb) return "";
+            const double slope = all.lateSlopeDbPerS < 0 ? all.lateSlopeDbPerS
+                                 : all.edt             ? -60.0 / *all.edt
+                                                       : 0.0;
+            if (!(slope < 0)) return "; raise duration_s";
+            const double extra = (all.decayEndDb - needDb) / -slope;
+            const double suggestion = std::ceil((endS + 1.1 * extra) * 10.0) / 10.0;
+            return "; raise duration_s to " + Fmt("%.1f", suggestion);
+        };
+        if (!all.t20) rows.AppendNote("T20", hz, suggest(-35.0));
+        if (!all.t30) rows.AppendNote("T30", hz, suggest(-45.0));
+        if (!all.edt) rows.AppendNote("EDT", hz, suggest(-20.0));
+        rows.Add("EDT_r", hz, "ratio", get([](const BandParameters& p) {
+            return p.edt ? std::optional(p.edtR) : std::nullopt; }), all.edtNote, false);
+        rows.Add("T20_r", hz, "ratio", get([](const BandParameters& p) {
+            return p.t20 ? std::optional(p.t20R) : std::nullopt; }), all.t20Note, false);
+        rows.Add("T30_r", hz, "ratio", get([](const BandParameters& p) {
+            return p.t30 ? std::optional(p.t30R) : std::nullopt; }), all.t30Note, false);
+        rows.Add("Curvature", hz, "%", get([](const BandParameters& p) -> std::optional<double> {
+            if (!p.t20 || !p.t30) return std::nullopt;
+            return 100.0 * (*p.t30 / *p.t20 - 1.0); }), all.t30 ? all.t20Note : all.t30Note);
+        rows.Add("C50", hz, "dB", get([](const BandParameters& p) { return p.c50; }), all.energyNote);
+        rows.Add("C80", hz, "dB", get([](const BandParameters& p) { return p.c80; }), all.energyNote);
+        rows.Add("D50", hz, "ratio", get([](const BandParameters& p) { return p.d50; }), all.energyNote);
+        rows.Add("Ts", hz, "ms", get([](const BandParameters& p) -> std::optional<double> {
+            if (!p.ts) return std::nullopt;
+            return *p.ts * 1000.0; }), all.energyNote);
+        rows.Add("G", hz, "dB", get([](const BandParameters& p) { return p.g; }), all.gNote);
+        rows.Add("LF", hz, "ratio", get([](const BandParameters& p) { return p.lf; }), all.lateralNote);
+        rows.Add("LFC", hz, "ratio", get([](const BandParameters& p) { return p.lfc; }), all.lateralNote);
+    }
+    {
+        std::vector<std::optional<double>> v(replicates);
+        for (int r = 0; r < replicates; ++r) v[r] = sti[r].sti;
+        rows.Add("STI", 0, "ratio", v, sti[0].note);
+        if (options.perBandMti)
+            for (int k = 0; k < kStiBands; ++k) {
+                for (int r = 0; r < replicates; ++r) v[r] = sti[r].mti[k];
+                rows.Add("MTI", kNominalBandHz[k + 1], "ratio", v, "");
+            }
+    }
+    AddSingleNumbers(table);
+    return table;
+}
+
+}  // namespace hallwright
