@@ -2,6 +2,7 @@
 // Propagation results handed from the image-source and ray-tracing stages to synthesis and
 // parameters. Energy units (both stages): a unit-energy omnidirectional source gives the
 // energy 1/(4 pi r^2) at distance r in free field (per unit area, per band, no air loss).
+#include <cmath>
 #include <cstdint>
 #include <string>
 #include <vector>
@@ -34,6 +35,23 @@ constexpr double kLateralWindowS = 0.100;  // lateral record: 0..100 ms after th
 constexpr int kLateralBins = 100;          // 1 ms each
 constexpr double kDirectionBinS = 0.010;   // coarse bins of the directional record
 constexpr int kDirectionCells = 64;        // 8 azimuth x 8 equal-area elevation cells
+
+/* Cell of the directional record for a unit arrival direction d (internal frame, y up):
+   8 azimuth sectors of atan2(d.z, d.x) starting at -pi, times 8 elevation bands of equal
+   solid angle (equal steps of d.y = sin(elevation) from -1); cell = 8 * elevation + azimuth. */
+inline int DirectionCell(const Vec3& d) {
+    constexpr double kPi = 3.14159265358979323846;
+    int az = static_cast<int>(std::floor((std::atan2(d.z(), d.x()) + kPi) / (2 * kPi) * 8));
+    int el = static_cast<int>(std::floor((d.y() + 1.0) * 0.5 * 8));
+    az = az < 0 ? 0 : (az > 7 ? 7 : az);
+    el = el < 0 ? 0 : (el > 7 ? 7 : el);
+    return el * 8 + az;
+}
+
+/* Number of coarse bins (kDirectionBinS) of the directional record for `binCount` 1 ms bins. */
+inline int DirectionBinCount(int binCount) {
+    return static_cast<int>(std::ceil(binCount * kBinWidthS / kDirectionBinS - 1e-9));
+}
 
 /* The tracer's part for one (source, receiver); the specular paths are NOT included. */
 struct ReceiverHistogram {
