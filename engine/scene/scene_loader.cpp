@@ -26,7 +26,7 @@ namespace hallwright {
 
 const std::vector<SchemaSection>& SceneSchema() {
     static const std::vector<SchemaSection> kSchema = {
-        {"", false, {"title", "model", "materials", "air", "source", "receiver", "seating", "simulation"}},
+        {"", false, {"title", "model", "materials", "air", "source", "receiver", "seating", "simulation", "review"}},
         {"model", false, {"mesh", "units", "up"}},
         {"materials", false, {"tables", "assign"}},
         {"air", false, {"temperature_c", "humidity_pct", "pressure_kpa"}},
@@ -34,6 +34,7 @@ const std::vector<SchemaSection>& SceneSchema() {
         {"receiver", true, {"name", "position", "zone", "facing"}},
         {"seating", true, {"zone", "surfaces", "spacing_m", "ear_height_m", "facing"}},
         {"simulation", false, {"rays", "image_order", "duration_s", "sample_rate", "seed", "bands"}},
+        {"review", false, {"venue", "flutter_max_angle_deg"}},  // design review (issue 10)
     };
     return kSchema;
 }
@@ -556,6 +557,22 @@ std::optional<SceneFile> ParseSceneToml(std::string_view text, const std::string
                 if (ok) scene.settings.reportedBands.assign(chosen.begin(), chosen.end());
             }
         }
+    }
+    // [review] (design review, issue 10)
+    if (const toml::table* rev = table("review")) {
+        const std::string where = "[review]";
+        scene.review.definedAt = r.At(*rev);
+        if (auto v = r.String(*rev, "venue", where)) {
+            if (*v == "concert" || *v == "theatre")
+                scene.review.venue = *v;
+            else
+                r.Error(r.At(*rev->get("venue")), "venue in [review] is \"" + *v +
+                                                      "\"; it must be \"concert\" or \"theatre\"");
+        }
+        if (auto v = r.Number(*rev, "flutter_max_angle_deg", where))
+            if (InRange(r, *rev, "flutter_max_angle_deg", where, *v, 0, 45,
+                        "give the largest splay (degrees, 0..45) still treated as parallel; default 3"))
+                scene.review.flutterMaxAngleDeg = *v;
     }
     if (r.Errors() > 0) return std::nullopt;
     return out;
