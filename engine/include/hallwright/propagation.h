@@ -75,3 +75,14 @@ struct ReceiverHistogram {
 };
 
 }  // namespace hallwright
+
+namespace hallwright {
+
+/* Adds a further round of rays to a histogram: each batch becomes the ray-weighted mean of
+   the two rounds' batches (both are full estimates), as are the lateral and directional
+   records, so B stays the same and the batches stay independent. Same binCount required
+   (returns false otherwise and leaves `total` unchanged). */
+bool MergeTracerRound(ReceiverHistogram& total, int64_t totalRays, const ReceiverHistogram& round,
+                      int64_t roundRays);
+
+}  // namespace hallwright
