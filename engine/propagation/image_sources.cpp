@@ -308,6 +308,23 @@ void BuildTreeFromSequences(const FaceTable& ft, ImageTree& tree, const std::vec
     }
 }
 
+/* Adds every valid one-face extension of the nodes at depth `depth` (the last reflection of
+   a ray-found sequence is often the one with the narrowest beam, e.g. a floor strip in front
+   of a reveal: completing the last level recovers those). */
+void CompleteLevel(const FaceTable& ft, ImageTree& tree, int depth) {
+    const size_t n = tree.Size();
+    std::vector<std::vector<int32_t>> children(n);
+    for (size_t m = 1; m < n; ++m) children[tree.parent[m]].push_back(tree.face[m]);
+    std::vector<char> present(ft.count, 0);
+    for (size_t m = 0; m < n; ++m) {
+        if (tree.depth[m] != depth) continue;
+        for (int32_t f : children[m]) present[f] = 1;
+        for (int g = 0; g < ft.count; ++g)
+            if (!present[g]) TryAddChild(ft, tree, static_cast<int32_t>(m), g);
+        for (int32_t f : children[m]) present[f] = 0;
+    }
+}
+
 struct ReceiverCounts {
     int64_t checks = 0, queries = 0;
 };
@@ -446,6 +463,16 @@ std::vector<ReceiverPaths> ComputeImageSources(const Scene& scene, const Geometr
     tree.Add(s, -1, -1, 0, 0, 0.0);
     ImageSourceStats st;
     if (options.order > 0) {
+        // A small image tree is cheaper to enumerate than to search for, and exact.
+        bool full = options.exhaustive;
+        if (!full && options.fullEnumerationLimit > 0) {
+            full = ExpandExhaustive(ft, tree, 0, options.order, options.fullEnumerationLimit);
+            if (!full) {
+                tree = ImageTree();
+                tree.Add(s, -1, -1, 0, 0, 0.0);
+            }
+        }
+        st.enumeratedFully = full;
         if (options.exhaustive) {
             if (!ExpandExhaustive(ft, tree, 0, options.order, options.maxImages)) {
                 diag.Error(sceneLoc, "exhaustive image sources: more than " + std::to_string(options.maxImages) +
@@ -454,9 +481,10 @@ std::vector<ReceiverPaths> ComputeImageSources(const Scene& scene, const Geometr
                                          " faces; use the accelerated search or a lower image_order");
                 return {};
             }
-        } else {
+        } else if (!full) {
             BuildTreeFromSequences(ft, tree,
                                    SearchSequences(ft, geometry, s, options.order, options.searchRays, offset));
+            if (options.completeLastOrder) CompleteLevel(ft, tree, options.order - 1);
             st.searchRays = options.searchRays;
         }
     }

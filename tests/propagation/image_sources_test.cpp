@@ -66,11 +66,14 @@ void AddQuad(Mesh& m, Vec3 a, Vec3 b, Vec3 c, Vec3 d, const Vec3& inward, int ma
     }
 }
 
+/* Options for a test; the accelerated runs exercise the ray-guided search itself (no switch
+   to full enumeration for small trees) unless a test says otherwise. */
 ImageSourceOptions Options(int order, bool exhaustive, bool air = true) {
     ImageSourceOptions o;
     o.order = order;
     o.exhaustive = exhaustive;
     o.airAbsorption = air;
+    if (!exhaustive) o.fullEnumerationLimit = 0;
     return o;
 }
 
@@ -136,8 +139,10 @@ void ExpectShoeboxMatchesClosedForm(bool exhaustive, double alpha, double scatte
     auto b = AllenBerkleyRoom(alpha, scattering);
     ASSERT_TRUE(b);
     Diagnostics diag;
-    const auto result = ComputeImageSources(*b->room, 0, Options(3, exhaustive, /*air=*/false), diag);
+    ImageSourceStats stats;
+    const auto result = ComputeImageSources(*b->room, 0, Options(3, exhaustive, /*air=*/false), diag, &stats);
     ASSERT_FALSE(diag.HasErrors()) << diag.ToString();
+    EXPECT_EQ(stats.searchRays, exhaustive ? 0 : ImageSourceOptions().searchRays);
     ASSERT_EQ(result.size(), 1u);
     const ReceiverPaths& rp = result[0];
     EXPECT_FALSE(rp.directOccluded);
@@ -474,6 +479,95 @@ TEST(ImageSources, OpenPanelReflectsOnBothSides) {
         // The receiver above the panel cannot hear the source through it.
         EXPECT_TRUE(res[1].directOccluded);
         for (const SpecularPath& p : res[1].paths) EXPECT_NE(GroupsOf(b->geometry(), p)[0], "panel");
+    }
+}
+
+bool SamePaths(const std::vector<ReceiverPaths>& a, const std::vector<ReceiverPaths>& b);
+
+// ---------------------------------------------------------------------------------------------
+// The ray-guided search against full enumeration (the exhaustive result is the reference: it
+// examines every face sequence). Irregular room of scenes/irregular: 30 polygons, splayed
+// walls, a stage platform and a balcony.
+
+/* Worst ratio, over seats and bands, of the accelerated to the exhaustive specular energy
+   summed over all paths of reflection order 1..maxOrder (the direct sound left out). Also
+   checks that every accelerated path is an exhaustive one with identical numbers. */
+double WorstEnergyShare(const std::vector<ReceiverPaths>& fast, const std::vector<ReceiverPaths>& full) {
+    double worst = 1.0;
+    EXPECT_EQ(fast.size(), full.size());
+    for (size_t r = 0; r < fast.size() && r < full.size(); ++r) {
+        std::map<std::vector<int>, const SpecularPath*> byFaces;
+        Bands reference = Bands::Zero(), found = Bands::Zero();
+        for (const SpecularPath& p : full[r].paths) {
+            byFaces[p.faces] = &p;
+            if (p.order > 0) reference += p.energy;
+        }
+        for (const SpecularPath& p : fast[r].paths) {
+            auto it = byFaces.find(p.faces);
+            if (it == byFaces.end()) {
+                ADD_FAILURE() << "receiver " << r << ": accelerated path not found by full enumeration";
+                continue;
+            }
+            EXPECT_EQ(p.delayS, it->second->delayS);
+            EXPECT_TRUE((p.energy == it->second->energy).all());
+            if (p.order > 0) found += p.energy;
+        }
+        for (int b = 0; b < kBandCount; ++b)
+            if (reference[b] > 0) worst = std::min(worst, found[b] / reference[b]);
+    }
+    return worst;
+}
+
+TEST(ImageSources, RaySearchFindsNinetyNinePercentOfTheSpecularEnergyInTheIrregularRoom) {
+    Diagnostics loadDiag;
+    auto room = LoadRoom(test::SourcePath("scenes/irregular/scene.toml"), loadDiag);
+    ASSERT_TRUE(room) << loadDiag.ToString();
+    ASSERT_GE(room->geometry.Faces().size(), 25u);
+    for (int source = 0; source < static_cast<int>(room->scene.sources.size()); ++source)
+        for (int order = 1; order <= 3; ++order) {
+            Diagnostics diag;
+            const ImageSourceOptions fast = Options(order, false);
+            ImageSourceStats stats;
+            const auto a = ComputeImageSources(*room, source, fast, diag, &stats);
+            EXPECT_FALSE(stats.enumeratedFully);
+            const auto e = ComputeImageSources(*room, source, Options(order, true), diag);
+            ASSERT_FALSE(diag.HasErrors()) << diag.ToString();
+            // Requirement of the image-source issue: >= 99 % at every seat, orders 1-3.
+            EXPECT_GE(WorstEnergyShare(a, e), 0.99) << "source " << source << " order " << order;
+        }
+}
+
+// A tree within fullEnumerationLimit is enumerated instead of searched: the same paths as
+// the exhaustive run, bit for bit.
+TEST(ImageSources, SmallImageTreesAreEnumeratedFully) {
+    Diagnostics loadDiag;
+    auto room = LoadRoom(test::SourcePath("scenes/irregular/scene.toml"), loadDiag);
+    ASSERT_TRUE(room) << loadDiag.ToString();
+    Diagnostics diag;
+    ImageSourceStats stats;
+    ImageSourceOptions options = Options(2, false);
+    options.fullEnumerationLimit = ImageSourceOptions().fullEnumerationLimit;
+    const auto a = ComputeImageSources(*room, 0, options, diag, &stats);
+    EXPECT_TRUE(stats.enumeratedFully);
+    EXPECT_EQ(stats.searchRays, 0);
+    const auto e = ComputeImageSources(*room, 0, Options(2, true), diag);
+    EXPECT_TRUE(SamePaths(a, e));
+}
+
+// The demo theatre, every seat, both sources, order 3: the ray-guided search against full
+// enumeration (release only: about a second).
+TEST(ImageSourcesValidation, RaySearchFindsTheTheatresSpecularEnergy) {
+    Diagnostics loadDiag;
+    auto room = LoadRoom(test::SourcePath("scenes/theatre/scene.toml"), loadDiag);
+    ASSERT_TRUE(room) << loadDiag.ToString();
+    ASSERT_GT(room->scene.receivers.size(), 500u);
+    for (int source = 0; source < static_cast<int>(room->scene.sources.size()); ++source) {
+        Diagnostics diag;
+        const ImageSourceOptions fast = Options(3, false);
+        const auto a = ComputeImageSources(*room, source, fast, diag);
+        const auto e = ComputeImageSources(*room, source, Options(3, true), diag);
+        ASSERT_FALSE(diag.HasErrors()) << diag.ToString();
+        EXPECT_GE(WorstEnergyShare(a, e), 0.99) << "source " << source;
     }
 }
 
