@@ -1,0 +1,441 @@
+// Impulse-response synthesis: specular pulses + band-weighted Poisson Dirac sequence.
+// Conventions and the filter bank are documented in hallwright/response.h.
+#include "hallwright/response.h"
+
+#include <algorithm>
+#include <cmath>
+#include <complex>
+#include <numbers>
+#include <string>
+
+#include <pcg_random.hpp>
+#include <tbb/parallel_for.h>
+
+#include "response/fft.h"
+
+namespace hallwright {
+
+namespace {
+
+constexpr double kPi = std::numbers::pi;
+/* Zero padding on each side of the IR inside the FFT buffer: room for the pre-ringing of the
+   zero-phase bank (wraps to the buffer end) and the ring-out past the IR end. The 63/125 Hz
+   crossover kernel (20 Hz wide transition) has decayed by far more than 100 dB after 150 ms. */
+constexpr double kPadS = 0.15;
+/* Kaiser window parameter of the fractional-delay kernel (about 80 dB side-lobe rejection). */
+constexpr double kKaiserBeta = 8.0;
+/* Length of the energy-correction window per band, in periods of the bandwidth: a band of
+   bandwidth B cannot hold an independent energy per interval shorter than ~1/B. */
+constexpr double kCorrectionBandwidthPeriods = 8.0;
+constexpr double kMinCorrectionWindowS = 0.002;
+/* Longest IR accepted (memory guard: 8 band buffers of this length are held at once). */
+constexpr double kMaxLengthS = 120.0;
+
+uint64_t Mix64(uint64_t x) {
+    // SplitMix64 finaliser (Steele, Lea, Flood 2014), used as a hash.
+    x += 0x9E3779B97F4A7C15ull;
+    x = (x ^ (x >> 30)) * 0xBF58476D1CE4E5B9ull;
+    x = (x ^ (x >> 27)) * 0x94D049BB133111EBull;
+    return x ^ (x >> 31);
+}
+
+/* The Dirac-sequence stream of one (source, receiver): depends on nothing else. */
+pcg32 SequenceRng(uint64_t seed, int source, int receiver) {
+    const uint64_t key = (static_cast<uint64_t>(static_cast<uint32_t>(source)) << 32) |
+                         static_cast<uint32_t>(receiver);
+    return pcg32(Mix64(seed ^ Mix64(key)), Mix64(seed + 0x5EEDull) ^ key);
+}
+
+/* Uniform double in [0, 1) with 53 random bits. */
+double Uniform(pcg32& rng) {
+    const uint64_t hi = rng() >> 5, lo = rng() >> 6;  // 27 + 26 bits
+    return (static_cast<double>(hi) * 67108864.0 + static_cast<double>(lo)) * (1.0 / 9007199254740992.0);
+}
+
+double CrossoverHz(int k) { return BandUpperEdgeHz(k); }
+
+/* Rising half of crossover k: 0 below fc 2^-w, 1 above fc 2^w, and between them
+   (1 + sin(pi/2 sin(pi u/2)))/2 with u = log2(f/fc)/w: odd about the crossover, so the
+   falling half (its complement) mirrors it, and flat to the third derivative at u = +-1, so
+   the band kernels decay fast in time (short pre-ringing). */
+double UpperShare(double f, int k) {
+    if (f <= 0) return 0;
+    const double u = std::log2(f / CrossoverHz(k)) / kCrossoverHalfWidthOct;
+    if (u <= -1) return 0;
+    if (u >= 1) return 1;
+    return 0.5 * (1.0 + std::sin(0.5 * kPi * std::sin(0.5 * kPi * u)));
+}
+
+double BesselI0(double x) {
+    // Power series; converges fast for the arguments used here (x <= ~10).
+    double sum = 1, term = 1;
+    const double q = 0.25 * x * x;
+    for (int k = 1; k < 60; ++k) {
+        term *= q / (static_cast<double>(k) * k);
+        sum += term;
+        if (term < 1e-17 * sum) break;
+    }
+    return sum;
+}
+
+/* Windowed-sinc fractional-delay tap at offset x (samples) from the exact delay. */
+double FractionalDelayTap(double x, double i0Beta) {
+    const double k = kFractionalDelayHalfTaps;
+    if (std::fabs(x) >= k) return 0;
+    const double r = x / k;
+    const double window = BesselI0(kKaiserBeta * std::sqrt(1.0 - r * r)) / i0Beta;
+    const double sinc = std::fabs(x) < 1e-12 ? 1.0 : std::sin(kPi * x) / (kPi * x);
+    return sinc * window;
+}
+
+/* Running mean over a centred box of `width` samples (prefix sums, double precision). */
+void BoxSmooth(const std::vector<double>& in, int width, std::vector<double>& out) {
+    const int n = static_cast<int>(in.size());
+    std::vector<double> prefix(n + 1, 0.0);
+    for (int i = 0; i < n; ++i) prefix[i + 1] = prefix[i] + in[i];
+    out.assign(n, 0.0);
+    const int half = width / 2;
+    for (int i = 0; i < n; ++i) {
+        const int a = std::max(0, i - half), b = std::min(n, i - half + width);
+        out[i] = (prefix[b] - prefix[a]) / width;
+    }
+}
+
+/* Validates the inputs; false with an error naming the problem. */
+bool Validate(const ReceiverPaths& paths, const ReceiverHistogram& hist,
+              const SynthesisContext& ctx, Diagnostics& diag) {
+    const SourceLoc at{"", 0, 0,
+                       "synthesis of source " + std::to_string(ctx.source) + ", receiver " +
+                           std::to_string(ctx.receiver)};
+    bool ok = true;
+    auto fail = [&](const std::string& msg) {
+        diag.Error(at, msg);
+        ok = false;
+    };
+    if (ctx.sampleRate < kMinSampleRate || ctx.sampleRate > 768000)
+        fail("sample rate " + std::to_string(ctx.sampleRate) + " Hz is outside " +
+             std::to_string(kMinSampleRate) + "..768000 Hz; the 8 kHz band needs at least " +
+             std::to_string(kMinSampleRate) + " Hz (set settings.sample_rate)");
+    if (!(ctx.roomVolumeM3 > 0) || !std::isfinite(ctx.roomVolumeM3))
+        fail("room volume must be positive to set the reflection density (got " +
+             std::to_string(ctx.roomVolumeM3) + " m^3; is the model closed?)");
+    if (!(ctx.speedOfSound > 0) || !std::isfinite(ctx.speedOfSound))
+        fail("speed of sound must be positive");
+    if (!(ctx.maxReflectionDensity > 0) || !std::isfinite(ctx.maxReflectionDensity))
+        fail("maximum reflection density must be positive");
+    if (!std::isfinite(ctx.lengthS) || ctx.lengthS < 0 || ctx.lengthS > kMaxLengthS)
+        fail("IR length " + std::to_string(ctx.lengthS) + " s is outside 0.." +
+             std::to_string(kMaxLengthS) + " s");
+    if (hist.binCount < 0 ||
+        hist.energy.size() != static_cast<size_t>(kBatchCount) * hist.binCount * kBandCount)
+        fail("histogram holds " + std::to_string(hist.energy.size()) + " values, expected " +
+             std::to_string(kBatchCount) + " x " + std::to_string(hist.binCount) + " x " +
+             std::to_string(kBandCount));
+    else
+        for (float e : hist.energy)
+            if (!std::isfinite(e) || e < 0) {
+                fail("histogram holds a negative or non-finite energy");
+                break;
+            }
+    for (const SpecularPath& p : paths.paths) {
+        if (!std::isfinite(p.delayS) || p.delayS < 0 || !p.energy.isFinite().all() ||
+            (p.energy < 0).any()) {
+            fail("a specular path has a negative or non-finite delay or energy");
+            break;
+        }
+    }
+    return ok;
+}
+
+/* The late part: Poisson Dirac sequence weighted per band to the mean histogram, band
+   filtered, energy-corrected on each band's own time scale; added into `out` (size nOut). */
+void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int nOut,
+                 RealFft& fft, const std::vector<std::vector<float>>& bandMag,
+                 const Bands& eps, std::vector<float>& out) {
+    const int m = fft.Size(), nBins = fft.BinCount();
+    const double fs = ctx.sampleRate;
+    const double samplesPerBin = fs * kBinWidthS;
+    // Only bins that start inside the IR are synthesized.
+    const int binCount = std::min(hist.binCount, static_cast<int>(std::ceil(nOut / samplesPerBin)));
+    if (binCount <= 0) return;
+
+    // Mean over batches = the all-ray estimate (propagation.h).
+    std::vector<double> mean(static_cast<size_t>(binCount) * kBandCount, 0.0);
+    for (int batch = 0; batch < kBatchCount; ++batch)
+        for (int k = 0; k < binCount; ++k)
+            for (int b = 0; b < kBandCount; ++b)
+                mean[k * kBandCount + b] += hist.Energy(batch, k, b) / kBatchCount;
+    std::vector<char> binHasEnergy(binCount, 0);
+    int kFirst = -1, kLast = -1;
+    for (int k = 0; k < binCount; ++k)
+        for (int b = 0; b < kBandCount; ++b)
+            if (mean[k * kBandCount + b] > 0) {
+                binHasEnergy[k] = 1;
+                if (kFirst < 0) kFirst = k;
+                kLast = k;
+            }
+    if (kFirst < 0) return;
+
+    // Dirac times: Poisson process of rate mu(t) = min(4 pi c^3 t^2 / V, muMax) (Kuttruff,
+    // Room Acoustics ch. 4; Schroeder 1996 eq. 11; REFERENCES Part B 5.1), drawn exactly by
+    // inverting the cumulative rate Lambda(t) at unit-rate exponential steps.
+    pcg32 rng = SequenceRng(ctx.seed, ctx.source, ctx.receiver);
+    const double c = ctx.speedOfSound;
+    const double a = 4.0 * kPi * c * c * c / ctx.roomVolumeM3;  // mu = a t^2
+    const double muMax = ctx.maxReflectionDensity;
+    const double tCap = std::sqrt(muMax / a);
+    const double lambdaCap = a * tCap * tCap * tCap / 3.0;
+    auto cumulative = [&](double t) {
+        return t <= tCap ? a * t * t * t / 3.0 : lambdaCap + muMax * (t - tCap);
+    };
+    auto inverse = [&](double lambda) {
+        return lambda <= lambdaCap ? std::cbrt(3.0 * lambda / a) : tCap + (lambda - lambdaCap) / muMax;
+    };
+    const double tStart = kFirst * kBinWidthS;
+    const double tEnd = std::min((kLast + 1) * kBinWidthS, nOut / fs);
+    std::vector<int> eventSample;
+    std::vector<int> binEvents(binCount, 0);
+    for (double lambda = cumulative(tStart);;) {
+        lambda += -std::log(1.0 - Uniform(rng));
+        const double t = inverse(lambda);
+        if (t >= tEnd) break;
+        const int n = std::min(static_cast<int>(t * fs), nOut - 1);
+        eventSample.push_back(n);
+        ++binEvents[std::min(binCount - 1, static_cast<int>(n / samplesPerBin))];
+    }
+    // Where the density is still low, every bin that holds energy gets at least one Dirac
+    // (at a uniform time in the bin), so no histogram energy is dropped.
+    for (int k = kFirst; k <= kLast; ++k) {
+        if (!binHasEnergy[k] || binEvents[k] > 0) continue;
+        const double t = (k + Uniform(rng)) * kBinWidthS;
+        const int n = std::min(static_cast<int>(t * fs), nOut - 1);
+        if (static_cast<int>(n / samplesPerBin) != k) continue;  // bin straddles the IR end
+        eventSample.push_back(n);
+        ++binEvents[k];
+    }
+    std::vector<float> eventSign(eventSample.size());
+    for (float& s : eventSign) s = (rng() & 1u) ? 1.0f : -1.0f;
+
+    // First and last sample of each bin.
+    auto binOfSample = [&](int n) { return std::min(binCount - 1, static_cast<int>(n / samplesPerBin)); };
+
+    std::vector<float> x(m), d(m);
+    std::vector<std::complex<float>> spectrum(nBins);
+    std::vector<double> target(nOut), actual(nOut), targetS, actualS, tmp;
+    for (int b = 0; b < kBandCount; ++b) {
+        // Envelope shaping: each Dirac gets sqrt of the histogram energy interpolated
+        // linearly between bin centres (smooth across bin edges, REFERENCES Part B 5.2).
+        std::fill(x.begin(), x.end(), 0.0f);
+        auto envelope = [&](int n) {
+            const double pos = n / samplesPerBin - 0.5;
+            int k0 = static_cast<int>(std::floor(pos));
+            const double f = pos - k0;
+            auto at = [&](int k) { return mean[std::clamp(k, 0, binCount - 1) * kBandCount + b]; };
+            if (pos < 0) return at(0);
+            return (1.0 - f) * at(k0) + f * at(k0 + 1);
+        };
+        bool any = false;
+        for (size_t i = 0; i < eventSample.size(); ++i) {
+            const int n = eventSample[i];
+            if (mean[binOfSample(n) * kBandCount + b] <= 0) continue;
+            x[n] += eventSign[i] * static_cast<float>(std::sqrt(envelope(n)));
+            any = true;
+        }
+        if (!any) continue;
+        // Per-bin normalisation: the Dirac train's energy in bin k equals E_b(k) exactly.
+        for (int k = kFirst; k <= kLast; ++k) {
+            const int n0 = static_cast<int>(std::ceil(k * samplesPerBin - 1e-9));
+            const int n1 = std::min(nOut, static_cast<int>(std::ceil((k + 1) * samplesPerBin - 1e-9)));
+            double sum = 0;
+            for (int n = n0; n < n1; ++n) sum += static_cast<double>(x[n]) * x[n];
+            const double want = mean[k * kBandCount + b];
+            const float g = sum > 0 ? static_cast<float>(std::sqrt(want / sum)) : 0.0f;
+            for (int n = n0; n < n1; ++n) x[n] *= g;
+        }
+        // Band filter (zero phase, FFT domain).
+        fft.Forward(x.data(), spectrum.data());
+        for (int i = 0; i < nBins; ++i) spectrum[i] *= bandMag[b][i];
+        fft.Inverse(spectrum.data(), d.data());
+
+        // Energy correction on the band's time scale L_b = 8/B (>= 2 ms): random-sign
+        // overlap of neighbouring Dirac responses makes a band's energy fluctuate by about
+        // 1/sqrt(B L); the gain sqrt(smoothed expected / smoothed actual) removes that
+        // fluctuation while varying slowly enough (~B/8) to keep the band limits.
+        const double bandwidth = BandUpperEdgeHz(b) - BandLowerEdgeHz(b);
+        const int width = std::max(3, static_cast<int>(std::max(kMinCorrectionWindowS,
+                                                                kCorrectionBandwidthPeriods / bandwidth) *
+                                                       fs / 2));
+        for (int n = 0; n < nOut; ++n) {
+            target[n] = eps[b] * static_cast<double>(x[n]) * x[n];
+            actual[n] = static_cast<double>(d[n]) * d[n];
+        }
+        // Triangular window of length 2*width: two box passes.
+        BoxSmooth(target, width, tmp);
+        BoxSmooth(tmp, width, targetS);
+        BoxSmooth(actual, width, tmp);
+        BoxSmooth(tmp, width, actualS);
+        std::vector<double>& gain = tmp;
+        double wanted = 0, achieved = 0;
+        for (int n = 0; n < nOut; ++n) {
+            double g = 1.0;
+            if (actualS[n] > 1e-300 && targetS[n] > 1e-300)
+                g = std::clamp(std::sqrt(targetS[n] / actualS[n]), 0.25, 4.0);
+            gain[n] = g;
+            wanted += target[n];
+            achieved += g * g * actual[n];
+        }
+        // The ratio gain is biased low (a local excess of d^2 also raises its own smoothed
+        // denominator), by a factor set by B L alone: one scalar per band restores the
+        // band's total energy exactly.
+        const double fix = achieved > 0 ? std::sqrt(wanted / achieved) : 1.0;
+        for (int n = 0; n < nOut; ++n) out[n] += static_cast<float>(fix * gain[n] * d[n]);
+    }
+}
+
+/* The specular part: per band a train of windowed-sinc pulses at the exact delays, band
+   filtered by the same bank and summed; added into `out`. */
+void AddSpecularPart(const ReceiverPaths& paths, const SynthesisContext& ctx, int nOut,
+                     RealFft& fft, const std::vector<std::vector<float>>& bandMag,
+                     std::vector<float>& out) {
+    if (paths.paths.empty()) return;
+    const int m = fft.Size(), nBins = fft.BinCount();
+    const double fs = ctx.sampleRate;
+    const double i0Beta = BesselI0(kKaiserBeta);
+    constexpr int kTaps = 2 * kFractionalDelayHalfTaps;
+
+    std::vector<std::vector<float>> train(kBandCount, std::vector<float>(m, 0.0f));
+    std::vector<double> taps(kTaps);
+    bool any = false;
+    for (const SpecularPath& p : paths.paths) {
+        const double pos = p.delayS * fs;
+        if (pos >= nOut) continue;
+        const long n0 = static_cast<long>(std::floor(pos));
+        // Taps j = n0 - K + 1 .. n0 + K, value sinc(j - pos) * Kaiser.
+        for (int i = 0; i < kTaps; ++i) {
+            const long j = n0 - kFractionalDelayHalfTaps + 1 + i;
+            taps[i] = FractionalDelayTap(static_cast<double>(j) - pos, i0Beta);
+        }
+        for (int b = 0; b < kBandCount; ++b) {
+            const double amp = std::sqrt(p.energy[b]);
+            if (amp == 0) continue;
+            any = true;
+            for (int i = 0; i < kTaps; ++i) {
+                const long j = n0 - kFractionalDelayHalfTaps + 1 + i;
+                if (j < 0 || j >= m) continue;
+                train[b][j] += static_cast<float>(amp * taps[i]);
+            }
+        }
+    }
+    if (!any) return;
+    std::vector<std::complex<float>> total(nBins, 0.0f), spectrum(nBins);
+    for (int b = 0; b < kBandCount; ++b) {
+        fft.Forward(train[b].data(), spectrum.data());
+        for (int i = 0; i < nBins; ++i) total[i] += spectrum[i] * bandMag[b][i];
+    }
+    std::vector<float> y(m);
+    fft.Inverse(total.data(), y.data());
+    for (int n = 0; n < nOut; ++n) out[n] += y[n];
+}
+
+}  // namespace
+
+double GReferenceEnergy() { return 1.0 / (4.0 * kPi * 100.0); }
+
+const char* GReferenceDefinition() {
+    return "sum over samples of p(n)^2 (no 1/fs factor) of the IR of a unit-energy, white, "
+           "omnidirectional source in free field at 10 m without air absorption (a single "
+           "Dirac of amplitude 1/sqrt(400 pi)); per band b through an analysis filter a_b the "
+           "reference is reference_energy * sum_n a_b(n)^2, so "
+           "G_b = 10 lg(sum_n (a_b * p)(n)^2 / (reference_energy * sum_n a_b(n)^2))";
+}
+
+double SynthesisBandMagnitude(int band, double frequencyHz) {
+    double mag = 1.0;
+    if (band > 0) mag *= UpperShare(frequencyHz, band - 1);
+    if (band < kBandCount - 1) mag *= 1.0 - UpperShare(frequencyHz, band);
+    return mag;
+}
+
+ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
+                           const SynthesisContext& context, Diagnostics& diag) {
+    ImpulseResponse ir;
+    ir.sampleRate = context.sampleRate;
+    ir.referenceEnergy = GReferenceEnergy();
+    if (!Validate(specular, tracer, context, diag)) return ir;
+
+    // IR length: the context's, else the histogram's, else just past the last path.
+    double lengthS = context.lengthS;
+    if (lengthS <= 0) lengthS = tracer.binCount * kBinWidthS;
+    double lastDelay = 0, firstDelay = 1e30;
+    for (const SpecularPath& p : specular.paths) {
+        lastDelay = std::max(lastDelay, p.delayS);
+        firstDelay = std::min(firstDelay, p.delayS);
+    }
+    if (lengthS <= 0) lengthS = lastDelay + 0.05;
+    ir.directDelayS = specular.paths.empty() ? tracer.directDelayS : firstDelay;
+    const double fs = context.sampleRate;
+    const int nOut = std::max(1, static_cast<int>(std::ceil(lengthS * fs)));
+    const int pad = static_cast<int>(std::ceil(kPadS * fs));
+    RealFft fft(FastRealFftSize(nOut + 2 * pad));
+    const int m = fft.Size(), nBins = fft.BinCount();
+
+    // Band magnitudes on the FFT grid and eps_b = sum_n h_b(n)^2 (Parseval, real spectrum).
+    std::vector<std::vector<float>> bandMag(kBandCount, std::vector<float>(nBins));
+    for (int b = 0; b < kBandCount; ++b) {
+        double sum = 0;
+        for (int i = 0; i < nBins; ++i) {
+            const double mag = SynthesisBandMagnitude(b, i * fs / m);
+            bandMag[b][i] = static_cast<float>(mag);
+            const double w = (i == 0 || (i == nBins - 1)) ? 1.0 : 2.0;
+            sum += w * mag * mag;
+        }
+        ir.bandEnergyOfUnitDirac[b] = sum / m;
+    }
+
+    std::vector<float> out(nOut, 0.0f);
+    AddLatePart(tracer, context, nOut, fft, bandMag, ir.bandEnergyOfUnitDirac, out);
+    AddSpecularPart(specular, context, nOut, fft, bandMag, out);
+    ir.samples = std::move(out);
+    return ir;
+}
+
+ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
+                           const SynthesisContext& context) {
+    Diagnostics diag;
+    ImpulseResponse ir = Synthesize(specular, tracer, context, diag);
+    HW_CHECK(!diag.HasErrors(), diag.ToString());
+    return ir;
+}
+
+int SynthesizeAllMono(const std::vector<ReceiverPaths>& paths,
+                      const std::vector<ReceiverHistogram>& histograms,
+                      const SynthesisContext& context, const ImpulseResponseSink& sink,
+                      Diagnostics& diag) {
+    if (paths.size() != histograms.size()) {
+        diag.Error({}, "synthesis needs one path list per histogram (got " +
+                           std::to_string(paths.size()) + " and " +
+                           std::to_string(histograms.size()) + ")");
+        return 0;
+    }
+    const int count = static_cast<int>(histograms.size());
+    std::vector<Diagnostics> perPair(count);
+    std::vector<char> made(count, 0);
+    // One pair per task: each worker holds one IR at a time.
+    tbb::parallel_for(0, count, [&](int i) {
+        SynthesisContext ctx = context;
+        ctx.source = histograms[i].source;
+        ctx.receiver = histograms[i].receiver;
+        ImpulseResponse ir = Synthesize(paths[i], histograms[i], ctx, perPair[i]);
+        if (perPair[i].HasErrors()) return;
+        made[i] = 1;
+        if (sink) sink(ir, i);
+    });
+    int total = 0;
+    for (int i = 0; i < count; ++i) {
+        diag.Append(perPair[i]);
+        total += made[i];
+    }
+    return total;
+}
+
+}  // namespace hallwright
