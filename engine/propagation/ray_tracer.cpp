@@ -29,6 +29,7 @@
 #include <unordered_map>
 
 #include <embree3/rtcore.h>
+#include <oneapi/tbb/parallel_for.h>
 #include <oneapi/tbb/parallel_pipeline.h>
 #include <pcg_random.hpp>
 
@@ -43,6 +44,16 @@ constexpr double kPi = 3.14159265358979323846;
 constexpr int64_t kRaysPerChunk = 256;  // fixed, never derived from the thread count
 constexpr int kMaxSubRays = kBandCount;  // a split partitions the bands: at most 8 alive
 constexpr int kMaxFallbackCasts = 16;
+constexpr double kAirStepM = 0.1;
+
+/* Fills the air table of `m` for distances up to maxDist. */
+void BuildAirTable(double airM[kBandCount], double maxDist, std::vector<float>& table) {
+    const size_t n = static_cast<size_t>(std::ceil(std::max(maxDist, 0.0) / kAirStepM)) + 2;
+    table.resize(n * kBandCount);
+    for (size_t i = 0; i < n; ++i)
+        for (int b = 0; b < kBandCount; ++b)
+            table[i * kBandCount + b] = static_cast<float>(std::exp(-airM[b] * kAirStepM * static_cast<double>(i)));
+}
 
 /* SplitMix64 finaliser (Steele, Lea & Flood 2014), used as a hash for stream keys. */
 uint64_t Mix64(uint64_t x) {
@@ -114,15 +125,21 @@ struct Model {
     std::vector<MaterialData> materials;
     double eps = 1e-5, backoff = 1e-4;
     double airM[kBandCount] = {};
+    /* e^(-m d) per band at d = i * kAirStepM, [i * kBandCount + band], linearly interpolated
+       for receiver scores (relative error < (m h)^2 / 8 = 2e-6 at 8 kHz); segments use exp. */
+    std::vector<float> airTable;
     double c = 343.2;
 };
 
 /* One scored receiver crossing, kept in chunk-local lists and merged in chunk order. */
 struct HitRecord {
-    double timeS;
     uint32_t receiver;  // index into the histograms
-    uint32_t batch;
-    float dir[3];       // arrival direction (from the receiver toward where sound comes from)
+    int32_t bin;        // 1 ms bin from emission
+    int32_t coarseBin;  // bin of the directional record
+    int16_t lateralBin; // 1 ms bin from the direct delay, -1 outside the lateral window
+    uint8_t batch;
+    uint8_t cell;       // directional cell of the arrival direction
+    float cosLateral;   // cosine between the arrival direction and the lateral axis
     float energy[kBandCount];  // all-ray estimate share (not yet scaled by kBatchCount)
 };
 
@@ -132,6 +149,7 @@ struct ChunkOut {
            remaining[kBandCount] = {}, emitted[kBandCount] = {};
     int64_t subRays = 0, segments = 0, reflections = 0, escapedRays = 0, fallbackCasts = 0;
     std::vector<EscapedRay> escapedSamples;
+    std::vector<RawCast>* casts = nullptr;  // benchmark only: first casts of each segment
 };
 
 struct SubRay {
@@ -286,7 +304,7 @@ inline double FacingDot(const TriangleData& t, const Vec3& d) {
 /* Next surface from p along d, leaving triangle `fromTri` on the side `nOut` (see the
    robustness note at the top of this file). */
 CastResult NextHit(const Model& m, const Vec3& p, const Vec3& d, int fromTri, const Vec3& nOut,
-                   int64_t& fallbackCasts) {
+                   int64_t& fallbackCasts, std::vector<RawCast>* casts) {
     RTCIntersectContext ctx;
     RTCRayHit rh;
     const int fromFace = fromTri >= 0 ? m.triangles[fromTri].face : -1;
@@ -295,6 +313,8 @@ CastResult NextHit(const Model& m, const Vec3& p, const Vec3& d, int fromTri, co
         Vec3 o = fromTri >= 0 ? Vec3(p + nOut * m.eps) : p;
         rtcInitIntersectContext(&ctx);
         FillRay(rh, o, d, 0.0f);
+        if (casts)
+            casts->push_back({{rh.ray.org_x, rh.ray.org_y, rh.ray.org_z}, {rh.ray.dir_x, rh.ray.dir_y, rh.ray.dir_z}});
         rtcIntersect1(m.scene, &ctx, &rh);
         if (rh.hit.geomID != RTC_INVALID_GEOMETRY_ID) {
             const TriangleData& t = m.triangles[rh.hit.primID];
@@ -328,7 +348,8 @@ struct ScoredReceiver {
 };
 
 /* Traces rays [first, last) of one source into `out`. */
-void TraceChunk(const Model& m, const ReceiverGrid& grid, const TracerOptions& opt, int source,
+void TraceChunk(const Model& m, const ReceiverGrid& grid, const ScoredReceiver* receivers,
+                const TracerOptions& opt, int source,
                 const Vec3& sourcePos, int64_t first, int64_t last, double maxDist,
                 std::vector<uint64_t>& stamp, uint64_t& stampId, ChunkOut& out) {
     const double e0 = 1.0 / static_cast<double>(opt.rays);
@@ -368,23 +389,36 @@ void TraceChunk(const Model& m, const ReceiverGrid& grid, const TracerOptions& o
                     for (int b = 0; b < kBandCount; ++b) out.remaining[b] += r.e[b];
                     break;
                 }
-                CastResult hit = NextHit(m, r.p, r.d, r.lastTri, nOut, out.fallbackCasts);
+                CastResult hit = NextHit(m, r.p, r.d, r.lastTri, nOut, out.fallbackCasts, out.casts);
                 ++out.segments;
                 const double segLen = hit.found ? std::min(hit.s, left) : left;
                 // Score the receivers this segment crosses (hybrid rule in ray_tracer.h).
                 if (grid.Size() > 0 && (opt.recordAll || r.diffuse || r.order > opt.imageOrder)) {
                     ++stampId;
+                    int cell = -1;  // same for every receiver of the segment, found on first use
+                    const Vec3 arrival = -r.d;
                     grid.Visit(r.p, r.d, segLen, stamp, stampId, [&](uint32_t rec, double tMid, double chord) {
                         HitRecord h;
-                        h.timeS = (r.dist + tMid) * invC;
+                        const double timeS = (r.dist + tMid) * invC;
                         h.receiver = rec;
-                        h.batch = batch;
-                        h.dir[0] = static_cast<float>(-r.d.x());
-                        h.dir[1] = static_cast<float>(-r.d.y());
-                        h.dir[2] = static_cast<float>(-r.d.z());
-                        double w = chord * grid.InvVolume(rec);
+                        h.bin = static_cast<int32_t>(timeS / kBinWidthS);
+                        h.coarseBin = static_cast<int32_t>(timeS / kDirectionBinS);
+                        const double lt = timeS - receivers[rec].directDelayS;
+                        h.lateralBin = lt >= 0 && lt < kLateralWindowS
+                                           ? static_cast<int16_t>(std::min(kLateralBins - 1, static_cast<int>(lt / kBinWidthS)))
+                                           : int16_t(-1);
+                        h.batch = static_cast<uint8_t>(batch);
+                        if (cell < 0) cell = DirectionCell(arrival);
+                        h.cell = static_cast<uint8_t>(cell);
+                        h.cosLateral = static_cast<float>(arrival.dot(receivers[rec].lateralAxis));
+                        // Track-length score E chord / V with the air loss up to the chord centre.
+                        const double w = chord * grid.InvVolume(rec);
+                        const double x = tMid * (1.0 / kAirStepM);
+                        const size_t i = static_cast<size_t>(x);
+                        const float f = static_cast<float>(x - static_cast<double>(i));
+                        const float* a0 = &m.airTable[i * kBandCount];
                         for (int b = 0; b < kBandCount; ++b)
-                            h.energy[b] = static_cast<float>(r.e[b] * std::exp(-m.airM[b] * tMid) * w);
+                            h.energy[b] = static_cast<float>(r.e[b] * w) * (a0[b] + f * (a0[b + kBandCount] - a0[b]));
                         out.hits.push_back(h);
                     });
                 }
@@ -478,6 +512,49 @@ void TraceChunk(const Model& m, const ReceiverGrid& grid, const TracerOptions& o
 
 }  // namespace
 
+std::vector<RawCast> CollectCasts(const Room& room, int source, const TracerOptions& options,
+                                  int64_t maxCasts) {
+    std::vector<RawCast> casts;
+    if (source < 0 || source >= static_cast<int>(room.scene.sources.size()) || options.rays <= 0) return casts;
+    const Model model = BuildModel(room, options);
+    const double duration = options.durationS ? *options.durationS : DefaultTraceDuration(room, source);
+    const ReceiverGrid noReceivers({}, {});
+    std::vector<uint64_t> stamp;
+    uint64_t stampId = 0;
+    for (int64_t first = 0; first < options.rays && static_cast<int64_t>(casts.size()) < maxCasts;
+         first += kRaysPerChunk) {
+        ChunkOut out;
+        out.casts = &casts;
+        TraceChunk(model, noReceivers, nullptr, options, source, room.scene.sources[source].position, first,
+                   std::min(options.rays, first + kRaysPerChunk), duration * model.c, stamp, stampId, out);
+    }
+    if (static_cast<int64_t>(casts.size()) > maxCasts) casts.resize(maxCasts);
+    return casts;
+}
+
+int64_t CastRaw(const Room& room, const std::vector<RawCast>& casts) {
+    const RTCScene scene = static_cast<RTCScene>(room.geometry.Rays().NativeScene());
+    constexpr size_t kBlock = 4096;
+    const size_t blocks = (casts.size() + kBlock - 1) / kBlock;
+    std::vector<int64_t> hits(blocks, 0);
+    tbb::parallel_for(size_t(0), blocks, [&](size_t blk) {
+        int64_t count = 0;
+        for (size_t i = blk * kBlock; i < std::min(casts.size(), (blk + 1) * kBlock); ++i) {
+            RTCIntersectContext ctx;
+            rtcInitIntersectContext(&ctx);
+            RTCRayHit rh;
+            FillRay(rh, Vec3(casts[i].org[0], casts[i].org[1], casts[i].org[2]),
+                    Vec3(casts[i].dir[0], casts[i].dir[1], casts[i].dir[2]), 0.0f);
+            rtcIntersect1(scene, &ctx, &rh);
+            count += rh.hit.geomID != RTC_INVALID_GEOMETRY_ID;
+        }
+        hits[blk] = count;
+    });
+    int64_t total = 0;
+    for (int64_t h : hits) total += h;
+    return total;
+}
+
 Vec3 LateralAxis(const Vec3& receiver, const Vec3& source) {
     Vec3 toSource = source - receiver;
     Vec3 a = Vec3(0, 1, 0).cross(toSource);
@@ -519,10 +596,11 @@ TracerResult TraceSource(const Room& room, int source, const TracerOptions& opti
         diag.Error(FileLoc(scene.scenePath), "rays must be positive; set [simulation] rays = 100000");
         return result;
     }
-    const Model model = BuildModel(room, options);
+    Model model = BuildModel(room, options);
     const Vec3 sourcePos = scene.sources[source].position;
     result.durationS = options.durationS ? *options.durationS : DefaultTraceDuration(room, source);
     const double maxDist = result.durationS * model.c;
+    BuildAirTable(model.airM, maxDist, model.airTable);
     const int binCount = std::max(1, static_cast<int>(std::ceil(result.durationS / kBinWidthS - 1e-9)));
     result.receiverRadiusM = options.receiverRadiusM > 0 ? options.receiverRadiusM
                                                          : ReceiverRadius(room, options.rays);
@@ -579,7 +657,7 @@ TracerResult TraceSource(const Room& room, int source, const TracerOptions& opti
     int64_t nextChunk = 0;
     double emitted[kBandCount] = {}, absorbed[kBandCount] = {}, air[kBandCount] = {},
            escaped[kBandCount] = {}, remaining[kBandCount] = {};
-    const double scale = kBatchCount;
+    const float scale = kBatchCount;
     std::vector<int> directionBins(result.histograms.size());
     for (size_t i = 0; i < result.histograms.size(); ++i)
         directionBins[i] = DirectionBinCount(result.histograms[i].binCount);
@@ -601,8 +679,8 @@ TracerResult TraceSource(const Room& room, int source, const TracerOptions& opti
                     uint64_t stampId = 0;
                     int64_t first = chunk * kRaysPerChunk;
                     int64_t last = std::min(options.rays, first + kRaysPerChunk);
-                    TraceChunk(model, grid, options, source, sourcePos, first, last, maxDist, stamp,
-                               stampId, *out);
+                    TraceChunk(model, grid, scored.data(), options, source, sourcePos, first, last, maxDist,
+                               stamp, stampId, *out);
                     return out.release();
                 }) &
             tbb::make_filter<ChunkOut*, void>(tbb::filter_mode::serial_in_order, [&](ChunkOut* raw) {
@@ -623,31 +701,23 @@ TracerResult TraceSource(const Room& room, int source, const TracerOptions& opti
                     if (result.escapedSamples.size() < kMaxEscapedRecords) result.escapedSamples.push_back(e);
                 for (const HitRecord& h : out->hits) {
                     ReceiverHistogram& hist = result.histograms[h.receiver];
-                    const ScoredReceiver& sr = scored[h.receiver];
-                    int bin = static_cast<int>(h.timeS / kBinWidthS);
-                    if (bin < 0 || bin >= hist.binCount) continue;
-                    float* e = &hist.energy[(static_cast<size_t>(h.batch) * hist.binCount + bin) * kBandCount];
-                    for (int b = 0; b < kBandCount; ++b) e[b] += static_cast<float>(h.energy[b] * scale);
+                    if (h.bin < 0 || h.bin >= hist.binCount) continue;
+                    float* e = &hist.energy[(static_cast<size_t>(h.batch) * hist.binCount + h.bin) * kBandCount];
+                    for (int b = 0; b < kBandCount; ++b) e[b] += h.energy[b] * scale;
                     // Lateral record from the direct delay on.
-                    double lt = h.timeS - sr.directDelayS;
-                    if (lt >= 0 && lt < kLateralWindowS) {
-                        int lbin = std::min(kLateralBins - 1, static_cast<int>(lt / kBinWidthS));
-                        double cosA = h.dir[0] * sr.lateralAxis.x() + h.dir[1] * sr.lateralAxis.y() +
-                                      h.dir[2] * sr.lateralAxis.z();
-                        size_t at = (static_cast<size_t>(h.batch) * kLateralBins + lbin) * kBandCount;
+                    if (h.lateralBin >= 0) {
+                        const float cosA = h.cosLateral, cos2 = cosA * cosA, cosAbs = std::abs(cosA);
+                        size_t at = (static_cast<size_t>(h.batch) * kLateralBins + h.lateralBin) * kBandCount;
                         for (int b = 0; b < kBandCount; ++b) {
-                            hist.lateralSq[at + b] += static_cast<float>(h.energy[b] * scale * cosA * cosA);
-                            hist.lateralAbs[at + b] += static_cast<float>(h.energy[b] * scale * std::abs(cosA));
+                            hist.lateralSq[at + b] += h.energy[b] * scale * cos2;
+                            hist.lateralAbs[at + b] += h.energy[b] * scale * cosAbs;
                         }
                     }
                     // Directional record: all-ray estimate, 125 Hz - 4 kHz summed.
-                    int coarse = static_cast<int>(h.timeS / kDirectionBinS);
-                    if (coarse < directionBins[h.receiver]) {
-                        double sum = 0;
+                    if (h.coarseBin < directionBins[h.receiver]) {
+                        float sum = 0;
                         for (int b = 1; b <= 6; ++b) sum += h.energy[b];
-                        int cell = DirectionCell(Vec3(h.dir[0], h.dir[1], h.dir[2]));
-                        hist.directionEnergy[static_cast<size_t>(coarse) * kDirectionCells + cell] +=
-                            static_cast<float>(sum);
+                        hist.directionEnergy[static_cast<size_t>(h.coarseBin) * kDirectionCells + h.cell] += sum;
                     }
                 }
             }));

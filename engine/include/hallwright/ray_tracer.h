@@ -92,4 +92,18 @@ double ReceiverRadius(const Room& room, int64_t rays);
    perpendicular to the source direction; x if the source is straight above or below. */
 Vec3 LateralAxis(const Vec3& receiver, const Vec3& source);
 
+/* Benchmark support: one ray cast as handed to Embree (float origin and unit direction). */
+struct RawCast {
+    float org[3], dir[3];
+};
+
+/* The first casts (at most maxCasts) of the segments of a trace of `source`, in ray order,
+   traced single-threaded without receivers; for comparing against bare Embree throughput. */
+std::vector<RawCast> CollectCasts(const Room& room, int source, const TracerOptions& options,
+                                  int64_t maxCasts);
+
+/* Casts every ray with rtcIntersect1 and nothing else (parallel over fixed blocks); returns
+   the number of hits. */
+int64_t CastRaw(const Room& room, const std::vector<RawCast>& casts);
+
 }  // namespace hallwright
