@@ -516,4 +516,25 @@ std::vector<ReceiverPaths> ComputeImageSources(const Room& room, int source, con
     return ComputeImageSources(room.scene, room.geometry, source, {}, options, diag, stats);
 }
 
+std::vector<std::vector<ReceiverPaths>> ComputeImageSourcesAllSources(const Room& room,
+                                                                      const ImageSourceOptions& options,
+                                                                      Diagnostics& diag, ImageSourceStats* stats) {
+    std::vector<std::vector<ReceiverPaths>> out;
+    ImageSourceStats total;
+    total.enumeratedFully = true;
+    for (int s = 0; s < static_cast<int>(room.scene.sources.size()); ++s) {
+        ImageSourceStats st;
+        out.push_back(ComputeImageSources(room, s, options, diag, &st));
+        if (diag.HasErrors()) return {};
+        total.enumeratedFully = total.enumeratedFully && st.enumeratedFully;
+        total.searchRays += st.searchRays;
+        total.images += st.images;
+        total.pathChecks += st.pathChecks;
+        total.occlusionQueries += st.occlusionQueries;
+        total.paths += st.paths;
+    }
+    if (stats) *stats = total;
+    return out;
+}
+
 }  // namespace hallwright

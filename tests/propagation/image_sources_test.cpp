@@ -609,6 +609,37 @@ TEST(ImageSources, ResultsDoNotDependOnTheThreadCount) {
     }
 }
 
+// A subset of receivers gives the same paths as the full run, in the order asked for; the
+// all-sources form runs each source once.
+TEST(ImageSources, ReceiverSubsetsAndAllSources) {
+    Scene s = PartitionScene(true);
+    AddSource(s, "S", Vec3(4, 1.5, 5));
+    AddSource(s, "T", Vec3(15, 2.5, 11));
+    for (int i = 0; i < 5; ++i) AddReceiver(s, "R" + std::to_string(i), Vec3(3 + 3.0 * i, 1.2, 2 + 2.5 * i));
+    auto b = Build(std::move(s));
+    ASSERT_TRUE(b);
+    Diagnostics diag;
+    const ImageSourceOptions o = Options(2, true);
+    const auto all = ComputeImageSources(b->scene(), b->geometry(), 0, {}, o, diag);
+    const auto some = ComputeImageSources(b->scene(), b->geometry(), 0, {3, 1}, o, diag);
+    ASSERT_EQ(some.size(), 2u);
+    EXPECT_EQ(some[0].receiver, 3);
+    EXPECT_EQ(some[1].receiver, 1);
+    EXPECT_TRUE(SamePaths({some[0]}, {all[3]}));
+    EXPECT_TRUE(SamePaths({some[1]}, {all[1]}));
+    ImageSourceStats stats;
+    const auto both = ComputeImageSourcesAllSources(*b->room, o, diag, &stats);
+    ASSERT_EQ(both.size(), 2u);
+    EXPECT_TRUE(SamePaths(both[0], all));
+    EXPECT_EQ(both[1][0].source, 1);
+    int64_t paths = 0;
+    for (const auto& perSource : both)
+        for (const auto& rp : perSource) paths += static_cast<int64_t>(rp.paths.size());
+    EXPECT_EQ(stats.paths, paths);
+    EXPECT_TRUE(stats.enumeratedFully);
+    EXPECT_FALSE(diag.HasErrors()) << diag.ToString();
+}
+
 TEST(ImageSources, BadOptionsAreReportedNotComputed) {
     auto b = AllenBerkleyRoom(0.1, 0.0);
     ASSERT_TRUE(b);

@@ -84,4 +84,11 @@ std::vector<ReceiverPaths> ComputeImageSources(const Scene& scene, const Geometr
 std::vector<ReceiverPaths> ComputeImageSources(const Room& room, int source, const ImageSourceOptions& options,
                                                Diagnostics& diag, ImageSourceStats* stats = nullptr);
 
+/* Every source and every receiver of a room ([source][receiver]), e.g. for the `image-sources`
+   benchmark; `stats` gets the counts summed over the sources (enumeratedFully: all of them). */
+std::vector<std::vector<ReceiverPaths>> ComputeImageSourcesAllSources(const Room& room,
+                                                                      const ImageSourceOptions& options,
+                                                                      Diagnostics& diag,
+                                                                      ImageSourceStats* stats = nullptr);
+
 }  // namespace hallwright
