@@ -51,6 +51,7 @@ void RowBuilder::AppendNote(const std::string& parameter, int band, const std::s
 void AddSingleNumbers(ParameterTable& table) {
     const double nan = std::numeric_limits<double>::quiet_NaN();
     for (const SingleNumber& s : kSingleNumbers) {
+        if (table.Find(s.name, 0)) continue;  // already added (the call is idempotent)
         std::vector<const ParameterValue*> parts;
         bool reported = true;
         for (int hz : s.bandsHz) {

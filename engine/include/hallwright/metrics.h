@@ -185,7 +185,8 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
                                        const HistogramMetricsOptions& options);
 
 /* Adds the single-number rows (kSingleNumbers) computed from the band rows of `table`,
-   including per-batch and jackknife replicates when the band rows carry them. */
+   including per-batch and jackknife replicates when the band rows carry them. Rows already
+   present are kept (calling it twice adds nothing; both paths call it already). */
 void AddSingleNumbers(ParameterTable& table);
 
 }  // namespace hallwright
