@@ -5,6 +5,8 @@
 #include <algorithm>
 #include <cmath>
 #include <complex>
+#include <memory>
+#include <mutex>
 #include <numbers>
 #include <string>
 
@@ -22,6 +24,9 @@ constexpr double kPi = std::numbers::pi;
    zero-phase bank (wraps to the buffer end) and the ring-out past the IR end. The 63/125 Hz
    crossover kernel (20 Hz wide transition) has decayed by far more than 100 dB after 150 ms. */
 constexpr double kPadS = 0.15;
+/* The specular grid is short, so it affords a longer padding: the 63 Hz band's kernel tail
+   still moves the group delay by a few 1/100 sample between 150 and 300 ms. */
+constexpr double kSpecularPadS = 0.30;
 /* Kaiser window parameter of the fractional-delay kernel (about 80 dB side-lobe rejection). */
 constexpr double kKaiserBeta = 8.0;
 /* Length of the energy-correction window per band, in periods of the bandwidth: a band of
@@ -88,17 +93,62 @@ double FractionalDelayTap(double x, double i0Beta) {
     return sinc * window;
 }
 
-/* Running mean over a centred box of `width` samples (prefix sums, double precision). */
+/* Running mean over a centred box of `width` samples (sliding sum, double precision). */
 void BoxSmooth(const std::vector<double>& in, int width, std::vector<double>& out) {
     const int n = static_cast<int>(in.size());
-    std::vector<double> prefix(n + 1, 0.0);
-    for (int i = 0; i < n; ++i) prefix[i + 1] = prefix[i] + in[i];
-    out.assign(n, 0.0);
+    out.resize(n);
     const int half = width / 2;
+    const double inv = 1.0 / width;
+    // Window of sample i: [i - half, i - half + width), clipped to the signal.
+    double sum = 0;
+    for (int j = 0; j < std::min(n, width - half); ++j) sum += in[j];
     for (int i = 0; i < n; ++i) {
-        const int a = std::max(0, i - half), b = std::min(n, i - half + width);
-        out[i] = (prefix[b] - prefix[a]) / width;
+        out[i] = sum * inv;
+        const int add = i - half + width, drop = i - half;
+        if (add < n) sum += in[add];
+        if (drop >= 0) sum -= in[drop];
     }
+}
+
+/* The bank on one FFT grid: magnitudes per band and eps_b = sum_n h_b(n)^2. */
+struct BankGrid {
+    int size = 0, sampleRate = 0;
+    std::vector<std::vector<float>> mag;  // [band][bin]
+    Bands eps = Bands::Zero();
+};
+
+std::shared_ptr<const BankGrid> MakeBankGrid(int m, int sampleRate) {
+    auto grid = std::make_shared<BankGrid>();
+    grid->size = m;
+    grid->sampleRate = sampleRate;
+    const int nBins = m / 2 + 1;
+    grid->mag.assign(kBandCount, std::vector<float>(nBins));
+    for (int b = 0; b < kBandCount; ++b) {
+        double sum = 0;
+        for (int i = 0; i < nBins; ++i) {
+            const double mag = SynthesisBandMagnitude(b, static_cast<double>(i) * sampleRate / m);
+            grid->mag[b][i] = static_cast<float>(mag);
+            sum += ((i == 0 || i == nBins - 1) ? 1.0 : 2.0) * mag * mag;  // Parseval, real spectrum
+        }
+        grid->eps[b] = sum / m;
+    }
+    return grid;
+}
+
+/* Grids are the same for every seat of a run: keep the few most recent ones. */
+std::shared_ptr<const BankGrid> BankGridFor(int m, int sampleRate) {
+    static std::mutex mutex;
+    static std::vector<std::shared_ptr<const BankGrid>> cache;
+    {
+        std::lock_guard<std::mutex> lock(mutex);
+        for (const auto& g : cache)
+            if (g->size == m && g->sampleRate == sampleRate) return g;
+    }
+    auto grid = MakeBankGrid(m, sampleRate);
+    std::lock_guard<std::mutex> lock(mutex);
+    if (cache.size() >= 4) cache.erase(cache.begin());
+    cache.push_back(grid);
+    return grid;
 }
 
 /* Validates the inputs; false with an error naming the problem. */
@@ -150,8 +200,10 @@ bool Validate(const ReceiverPaths& paths, const ReceiverHistogram& hist,
 /* The late part: Poisson Dirac sequence weighted per band to the mean histogram, band
    filtered, energy-corrected on each band's own time scale; added into `out` (size nOut). */
 void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int nOut,
-                 RealFft& fft, const std::vector<std::vector<float>>& bandMag,
-                 const Bands& eps, std::vector<float>& out) {
+                 const BankGrid& grid, std::vector<float>& out) {
+    RealFft fft(grid.size);
+    const std::vector<std::vector<float>>& bandMag = grid.mag;
+    const Bands& eps = grid.eps;
     const int m = fft.Size(), nBins = fft.BinCount();
     const double fs = ctx.sampleRate;
     const double samplesPerBin = fs * kBinWidthS;
@@ -295,11 +347,20 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
 /* The specular part: per band a train of windowed-sinc pulses at the exact delays, band
    filtered by the same bank and summed; added into `out`. */
 void AddSpecularPart(const ReceiverPaths& paths, const SynthesisContext& ctx, int nOut,
-                     RealFft& fft, const std::vector<std::vector<float>>& bandMag,
                      std::vector<float>& out) {
     if (paths.paths.empty()) return;
-    const int m = fft.Size(), nBins = fft.BinCount();
     const double fs = ctx.sampleRate;
+    // The paths usually end long before the IR does: an FFT grid just long enough for the
+    // last pulse plus the bank's ringing (kSpecularPadS each side) keeps this part cheap.
+    double last = 0;
+    for (const SpecularPath& p : paths.paths) last = std::max(last, p.delayS);
+    const int pad = static_cast<int>(std::ceil(kSpecularPadS * fs));
+    const int span = std::min(nOut, static_cast<int>(std::ceil(last * fs)) + kFractionalDelayHalfTaps + 1);
+    const std::shared_ptr<const BankGrid> grid = BankGridFor(FastRealFftSize(span + 2 * pad), ctx.sampleRate);
+    const std::vector<std::vector<float>>& bandMag = grid->mag;
+    RealFft fft(grid->size);
+    const int m = fft.Size(), nBins = fft.BinCount();
+    const int nSpan = std::min(nOut, m - pad);  // samples of this grid that are valid output
     const double i0Beta = BesselI0(kKaiserBeta);
     constexpr int kTaps = 2 * kFractionalDelayHalfTaps;
 
@@ -334,7 +395,7 @@ void AddSpecularPart(const ReceiverPaths& paths, const SynthesisContext& ctx, in
     }
     std::vector<float> y(m);
     fft.Inverse(total.data(), y.data());
-    for (int n = 0; n < nOut; ++n) out[n] += y[n];
+    for (int n = 0; n < nSpan; ++n) out[n] += y[n];
 }
 
 }  // namespace
@@ -376,25 +437,12 @@ ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogra
     const double fs = context.sampleRate;
     const int nOut = std::max(1, static_cast<int>(std::ceil(lengthS * fs)));
     const int pad = static_cast<int>(std::ceil(kPadS * fs));
-    RealFft fft(FastRealFftSize(nOut + 2 * pad));
-    const int m = fft.Size(), nBins = fft.BinCount();
-
-    // Band magnitudes on the FFT grid and eps_b = sum_n h_b(n)^2 (Parseval, real spectrum).
-    std::vector<std::vector<float>> bandMag(kBandCount, std::vector<float>(nBins));
-    for (int b = 0; b < kBandCount; ++b) {
-        double sum = 0;
-        for (int i = 0; i < nBins; ++i) {
-            const double mag = SynthesisBandMagnitude(b, i * fs / m);
-            bandMag[b][i] = static_cast<float>(mag);
-            const double w = (i == 0 || (i == nBins - 1)) ? 1.0 : 2.0;
-            sum += w * mag * mag;
-        }
-        ir.bandEnergyOfUnitDirac[b] = sum / m;
-    }
+    const std::shared_ptr<const BankGrid> grid = BankGridFor(FastRealFftSize(nOut + 2 * pad), context.sampleRate);
+    ir.bandEnergyOfUnitDirac = grid->eps;
 
     std::vector<float> out(nOut, 0.0f);
-    AddLatePart(tracer, context, nOut, fft, bandMag, ir.bandEnergyOfUnitDirac, out);
-    AddSpecularPart(specular, context, nOut, fft, bandMag, out);
+    AddLatePart(tracer, context, nOut, *grid, out);
+    AddSpecularPart(specular, context, nOut, out);
     ir.samples = std::move(out);
     return ir;
 }

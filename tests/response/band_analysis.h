@@ -89,12 +89,13 @@ inline double TransitionShare(int band, int crossover, int sampleRate) {
     const double fc = BandUpperEdgeHz(crossover);
     const double lo = fc * std::pow(2.0, -kCrossoverHalfWidthOct);
     const double hi = fc * std::pow(2.0, kCrossoverHalfWidthOct);
+    // Midpoint rule on a log-frequency grid (df = f dln f), fine at the low bands too.
     double in = 0, all = 0;
-    const int steps = 200000;
-    const double fmax = sampleRate / 2.0;
+    const int steps = 20000;
+    const double fmin = 10.0, fmax = sampleRate / 2.0, span = std::log(fmax / fmin);
     for (int i = 0; i < steps; ++i) {
-        const double f = (i + 0.5) * fmax / steps;
-        const double a2 = AnalysisMagnitude(band, f) * AnalysisMagnitude(band, f);
+        const double f = fmin * std::exp((i + 0.5) * span / steps);
+        const double a2 = AnalysisMagnitude(band, f) * AnalysisMagnitude(band, f) * f;
         all += a2;
         if (f > lo && f < hi) in += a2;
     }

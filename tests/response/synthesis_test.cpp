@@ -6,6 +6,8 @@
 #include <numbers>
 #include <random>
 
+#include <tbb/task_arena.h>
+
 #include "hallwright/air.h"
 #include "hallwright/response.h"
 #include "response/band_analysis.h"
@@ -386,4 +388,32 @@ TEST(LateSynthesis, RejectsMalformedInput) {
     hw::Diagnostics diag3;
     hw::Synthesize({}, nan, Context(100, 343), diag3);
     EXPECT_TRUE(diag3.HasErrors());
+}
+
+// All seats: each pair's IR is the same whatever the thread count (ARCHITECTURE: determinism).
+TEST(LateSynthesis, AllSeatsIndependentOfThreadCount) {
+    Box box;
+    box.t60 = Bands::Constant(0.8);
+    box.durationS = 0.6;
+    std::vector<hw::ReceiverHistogram> hists;
+    std::vector<hw::ReceiverPaths> paths(4);
+    for (int r = 0; r < 4; ++r) {
+        hists.push_back(BarronHistogram(box, 30 + r, nullptr));
+        hists.back().receiver = r;
+        paths[r].paths.push_back(FreeFieldPath(box.distance, box.c, true));
+    }
+    auto run = [&](int threads) {
+        std::vector<std::vector<float>> out(hists.size());
+        tbb::task_arena arena(threads);
+        arena.execute([&] {
+            hw::Diagnostics diag;
+            const int made = hw::SynthesizeAllMono(paths, hists, Context(box.volume, box.c),
+                                                   [&](const hw::ImpulseResponse& ir, int i) { out[i] = ir.samples; }, diag);
+            EXPECT_EQ(made, 4) << diag.ToString();
+        });
+        return out;
+    };
+    const auto one = run(1), two = run(2);
+    EXPECT_EQ(one, two);
+    EXPECT_NE(one[0], one[1]);
 }
