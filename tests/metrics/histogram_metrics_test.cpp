@@ -251,3 +251,30 @@ TEST(HistogramMetrics, JackknifeIntervalsCoverTheReference) {
         EXPECT_GT(meanHalfWidth[p], 0.0) << params[p];  // the noise is real
     }
 }
+
+// Occluded direct sound: time zero is the first arrival (here a first-order reflection at
+// 25 ms, the tracer part starting with it), and the table is flagged (ISO 3382-1 onset rule
+// applied to the first arrival, issue 7).
+TEST(HistogramMetrics, OccludedDirectUsesFirstArrivalAndFlags) {
+    hw::ReceiverPaths paths;
+    paths.directOccluded = true;
+    hw::SpecularPath refl;
+    refl.order = 1;
+    refl.delayS = 0.025;
+    refl.energy = hw::Bands::Constant(0.01);
+    refl.arrivalFrom = hw::Vec3(0, 0, 1);
+    paths.paths = {refl};
+    hw::ReceiverHistogram h = ExponentialHistogram(1.0, 2.0, 0.025);
+    h.directDelayS = 0.015;  // the straight line would have been shorter
+    hw::HistogramMetricsOptions opt;
+    opt.sourceDirection = hw::Vec3(1, 0, 0);
+    const hw::ParameterTable tab = hw::ParametersFromHistogram(paths, h, opt);
+    EXPECT_TRUE(tab.directOccluded);
+    EXPECT_NEAR(tab.timeZeroS, 0.025, 1e-12);
+    ASSERT_FALSE(tab.notes.empty());
+    EXPECT_NE(tab.notes[0].find("occluded"), std::string::npos);
+    EXPECT_NEAR(Value(tab, "T30", 1000), 1.0, 1e-3);
+    // C80 from the first arrival: the same closed form as the off-grid test.
+    const double k = kLn10x6, early = 0.01 + (1 - std::exp(-k * 0.08)) / k, late = std::exp(-k * 0.08) / k;
+    EXPECT_NEAR(Value(tab, "C80", 1000), 10 * std::log10(early / late), 1e-3);
+}

@@ -2,6 +2,9 @@
 #include "hallwright/octave_filter.h"
 
 #include <cmath>
+#include <cstdio>
+#include <sstream>
+#include <string>
 
 #include <gtest/gtest.h>
 
@@ -81,4 +84,33 @@ TEST(OctaveFilter, TimeDomainMatchesResponse) {
         integral += std::norm(f->Response(fr)) * (fs / 2.0) / steps;
     }
     EXPECT_NEAR(f->DiracEnergy(), integral / (fs / 2.0), 1e-6);  // Parseval
+}
+
+// Optional cross-check with scipy.signal.butter (same design: Butterworth band-pass, bilinear
+// transform with pre-warped edges). Relative attenuations must agree to 1e-6 dB. Skipped
+// when python3 with scipy is not available; the class 1 test above stands on its own.
+TEST(OctaveFilter, AgreesWithScipyButter) {
+    const int fs = 48000, band = 5;
+    const double f1 = hw::BandLowerEdgeHz(band), f2 = hw::BandUpperEdgeHz(band), fm = hw::ExactMidbandHz(band);
+    const double freqs[] = {300, 800, 1413, 1800, 2500, 2818, 4000, 9000, 20000};
+    std::string cmd = "/usr/bin/python3 -c \"import numpy as np, scipy.signal as s; "
+                      "sos = s.butter(4, [" + std::to_string(f1) + ", " + std::to_string(f2) +
+                      "], btype='bandpass', fs=" + std::to_string(fs) + ", output='sos'); f = [" +
+                      std::to_string(fm);
+    for (double f : freqs) cmd += ", " + std::to_string(f);
+    cmd += "]; w, h = s.sosfreqz(sos, worN=f, fs=" + std::to_string(fs) +
+           "); a = -20*np.log10(np.abs(h)); print(' '.join('%.12f' % (x - a[0]) for x in a[1:]))\" 2>/dev/null";
+    FILE* p = popen(cmd.c_str(), "r");
+    if (!p) GTEST_SKIP() << "python3 not available";
+    char buf[4096] = {0};
+    const size_t got = fread(buf, 1, sizeof buf - 1, p);
+    const int rc = pclose(p);
+    if (rc != 0 || got == 0) GTEST_SKIP() << "python3 with scipy not available";
+    auto f = hw::OctaveFilter::Design(band, fs);
+    std::istringstream in(buf);
+    for (double fr : freqs) {
+        double scipyDa = 0;
+        ASSERT_TRUE(in >> scipyDa);
+        EXPECT_NEAR(f->AttenuationDb(fr) - f->AttenuationDb(fm), scipyDa, 1e-6) << fr;
+    }
 }
