@@ -44,6 +44,7 @@ struct FaceTable {
     std::vector<double> tri;                 // 6 per triangle: x0, y0, m00, m01, m10, m11
     std::vector<Bands> specular;             // (1 - alpha)(1 - s)
     std::vector<double> maxSd, minSd;        // [f * count + g]: extremes of sd_f over g's vertices
+    std::vector<std::vector<int>> adjacent;  // faces sharing a vertex with each face, ascending
 
     /* True if p (on the face's plane) lies inside face f. */
     bool Contains(int f, const Vec3& p) const {
@@ -65,8 +66,8 @@ struct FaceTable {
    and is not the room's outer shell. Geometry::Build keeps their winding as given, so they
    reflect on both sides. The outer shell is the closed component of largest |volume|, or the
    largest component when none is closed (the same rule Geometry::Build orients with). */
-std::vector<char> TwoSidedTriangles(const Mesh& mesh) {
-    const size_t nTri = mesh.TriangleCount();
+/* Vertex ids with positions equal within kWeldM merged (deterministic). */
+std::vector<uint32_t> WeldedVertexIds(const Mesh& mesh) {
     std::map<std::array<int64_t, 3>, uint32_t> cells;
     std::vector<uint32_t> weld(mesh.vertices.size());
     for (size_t i = 0; i < mesh.vertices.size(); ++i) {
@@ -74,6 +75,11 @@ std::vector<char> TwoSidedTriangles(const Mesh& mesh) {
         for (int k = 0; k < 3; ++k) key[k] = std::llround(mesh.vertices[i][k] / kWeldM);
         weld[i] = cells.emplace(key, static_cast<uint32_t>(i)).first->second;
     }
+    return weld;
+}
+
+std::vector<char> TwoSidedTriangles(const Mesh& mesh, const std::vector<uint32_t>& weld) {
+    const size_t nTri = mesh.TriangleCount();
     std::map<std::pair<uint32_t, uint32_t>, std::vector<uint32_t>> edges;
     for (uint32_t t = 0; t < nTri; ++t)
         for (int k = 0; k < 3; ++k) {
@@ -115,7 +121,8 @@ std::vector<char> TwoSidedTriangles(const Mesh& mesh) {
 FaceTable BuildFaceTable(const Scene& scene, const Geometry& geometry) {
     const Mesh& mesh = geometry.GetMesh();
     const std::vector<Face>& faces = geometry.Faces();
-    const std::vector<char> twoSidedTri = TwoSidedTriangles(mesh);
+    const std::vector<uint32_t> weld = WeldedVertexIds(mesh);
+    const std::vector<char> twoSidedTri = TwoSidedTriangles(mesh, weld);
     FaceTable ft;
     ft.count = static_cast<int>(faces.size());
     const int n = ft.count;
@@ -166,6 +173,28 @@ FaceTable BuildFaceTable(const Scene& scene, const Geometry& geometry) {
         ft.boxMax[2 * f + 1] = hi[1] + slack;
         const Material& m = scene.materials.at(face.material);
         ft.specular[f] = (1.0 - m.absorption) * (1.0 - m.scattering);
+    }
+    // Faces that touch (share a welded vertex).
+    {
+        std::vector<std::pair<uint32_t, int>> vertexFace;
+        for (int f = 0; f < n; ++f)
+            for (uint32_t t : faces[f].triangles)
+                for (int c = 0; c < 3; ++c) vertexFace.push_back({weld[mesh.triangles[t][c]], f});
+        std::sort(vertexFace.begin(), vertexFace.end());
+        vertexFace.erase(std::unique(vertexFace.begin(), vertexFace.end()), vertexFace.end());
+        ft.adjacent.assign(n, {});
+        for (size_t i = 0; i < vertexFace.size();) {
+            size_t j = i;
+            while (j < vertexFace.size() && vertexFace[j].first == vertexFace[i].first) ++j;
+            for (size_t a = i; a < j; ++a)
+                for (size_t b = i; b < j; ++b)
+                    if (a != b) ft.adjacent[vertexFace[a].second].push_back(vertexFace[b].second);
+            i = j;
+        }
+        for (auto& adj : ft.adjacent) {
+            std::sort(adj.begin(), adj.end());
+            adj.erase(std::unique(adj.begin(), adj.end()), adj.end());
+        }
     }
     ft.maxSd.assign(static_cast<size_t>(n) * n, -1e300);
     ft.minSd.assign(static_cast<size_t>(n) * n, 1e300);
@@ -308,20 +337,25 @@ void BuildTreeFromSequences(const FaceTable& ft, ImageTree& tree, const std::vec
     }
 }
 
-/* Adds every valid one-face extension of the nodes at depth `depth` (the last reflection of
-   a ray-found sequence is often the one with the narrowest beam, e.g. a floor strip in front
-   of a reveal: completing the last level recovers those). */
-void CompleteLevel(const FaceTable& ft, ImageTree& tree, int depth) {
-    const size_t n = tree.Size();
-    std::vector<std::vector<int32_t>> children(n);
-    for (size_t m = 1; m < n; ++m) children[tree.parent[m]].push_back(tree.face[m]);
+/* Completes the ray-found tree where rays are known to thin out: every first-order image,
+   and below every node (up to the order) the reflections off the faces that touch its face.
+   Beams narrower than the ray spacing are mostly those cut by an edge: a floor strip in
+   front of a reveal, a side aisle beside a wall, a corner. New nodes are completed too. */
+void CompleteAdjacent(const FaceTable& ft, ImageTree& tree, int order) {
+    std::vector<std::vector<int32_t>> children(tree.Size());
+    for (size_t m = 1; m < tree.Size(); ++m) children[tree.parent[m]].push_back(tree.face[m]);
     std::vector<char> present(ft.count, 0);
-    for (size_t m = 0; m < n; ++m) {
-        if (tree.depth[m] != depth) continue;
-        for (int32_t f : children[m]) present[f] = 1;
-        for (int g = 0; g < ft.count; ++g)
+    std::vector<int> all(ft.count);
+    std::iota(all.begin(), all.end(), 0);
+    for (size_t m = 0; m < tree.Size(); ++m) {
+        if (tree.depth[m] >= order) continue;
+        const std::vector<int>& candidates = m == 0 ? all : ft.adjacent[tree.face[m]];
+        if (m < children.size())
+            for (int32_t f : children[m]) present[f] = 1;
+        for (int g : candidates)
             if (!present[g]) TryAddChild(ft, tree, static_cast<int32_t>(m), g);
-        for (int32_t f : children[m]) present[f] = 0;
+        if (m < children.size())
+            for (int32_t f : children[m]) present[f] = 0;
     }
 }
 
@@ -484,7 +518,7 @@ std::vector<ReceiverPaths> ComputeImageSources(const Scene& scene, const Geometr
         } else if (!full) {
             BuildTreeFromSequences(ft, tree,
                                    SearchSequences(ft, geometry, s, options.order, options.searchRays, offset));
-            if (options.completeLastOrder) CompleteLevel(ft, tree, options.order - 1);
+            if (options.completeAdjacent) CompleteAdjacent(ft, tree, options.order);
             st.searchRays = options.searchRays;
         }
     }

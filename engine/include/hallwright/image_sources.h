@@ -20,10 +20,11 @@
 //    order; every face sequence a ray visits (and each of its prefixes) becomes a candidate.
 //    The candidates of one source are pooled, shared by all receivers, and validated exactly
 //    for each receiver as above. A sequence whose beam is narrower than the ray spacing
-//    (4 pi / searchRays sr) can be missed. The last reflection is often the narrowest part of
-//    a beam (a floor strip in front of a reveal, a grazing wall), so every ray-found sequence
-//    one short of the order is also extended by every face that passes the two conditions
-//    above. Every accelerated path is also an exhaustive one, with identical numbers.
+//    (4 pi / searchRays sr) can be missed. Such beams are mostly cut by an edge (a floor strip
+//    in front of a reveal, a side aisle beside a wall, a corner), so the tree is completed:
+//    all first-order images, and below every node the reflections off the faces that touch
+//    its face (share a vertex), down to the order. Every accelerated path is also an
+//    exhaustive one, with identical numbers.
 //    When the whole image tree has at most `fullEnumerationLimit` images (rooms of a few
 //    dozen faces at order 3), it is enumerated instead: exact, and cheaper than the search.
 //
@@ -52,8 +53,8 @@ struct ImageSourceOptions {
     int order = 3;                    // highest reflection order (0 = direct sound only)
     bool exhaustive = false;          // full enumeration instead of the ray-guided search
     int64_t searchRays = 200000;      // accelerated: rays cast from the source
-    bool completeLastOrder = true;    // accelerated: extend found sequences by one face
-    int64_t fullEnumerationLimit = 50000;  // accelerated: enumerate trees up to this size (0: never)
+    bool completeAdjacent = true;     // accelerated: complete the tree by touching faces
+    int64_t fullEnumerationLimit = 20000;  // accelerated: enumerate trees up to this size (0: never)
     bool airAbsorption = true;        // ISO 9613-1 air loss along each path
     int64_t maxImages = 20000000;     // exhaustive: refuse image trees larger than this
 };
