@@ -1,6 +1,7 @@
 // `hallwright bench [SCENE.toml ...]`: speed of the propagation stages, one JSON line per case
-// (scene, case, threads, seats, rays, segments, segments_per_s, wall_s, peak_rss_mb); the
-// median of --repeat runs. Cases:
+// (scene, case, threads, seats, rays, segments, segments_per_s, wall_s, peak_rss_mb, plus
+// cpu_s = process CPU time, a check on wall_s when the machine is busy, and receiver_hits);
+// the median of --repeat runs. Cases:
 //   trace-1seat      tracer alone (image sources off), first seat only
 //   trace-all-seats  tracer for every seat (hybrid rule, image order of the scene)
 //   raw-embree       the first casts of trace-1seat again, bare rtcIntersect1 (no bookkeeping):
@@ -14,6 +15,8 @@
 #include <sstream>
 #include <string>
 #include <vector>
+
+#include <sys/resource.h>
 
 #include <nlohmann/json.hpp>
 #include <oneapi/tbb/task_arena.h>
@@ -40,9 +43,16 @@ void ResetPeakRss() {
 }
 
 struct CaseResult {
-    int64_t seats = 0, rays = 0, segments = 0;
-    double wallS = 0, peakRssMb = 0;
+    int64_t seats = 0, rays = 0, segments = 0, receiverHits = 0;
+    double wallS = 0, cpuS = 0, peakRssMb = 0;
 };
+
+/* User + system CPU time of the process so far (s): a check on wall time on a busy machine. */
+double CpuSeconds() {
+    rusage u{};
+    getrusage(RUSAGE_SELF, &u);
+    return u.ru_utime.tv_sec + u.ru_stime.tv_sec + 1e-6 * (u.ru_utime.tv_usec + u.ru_stime.tv_usec);
+}
 
 double Median(std::vector<double> v) {
     std::sort(v.begin(), v.end());
@@ -65,8 +75,11 @@ bool RunCase(const std::string& name, const hw::Room& room, int64_t rays, int th
             opt.receivers = {0};
         }
         auto t0 = Clock::now();
+        const double c0 = CpuSeconds();
         hw::TracerResult res = arena.execute([&] { return hw::TraceSource(room, 0, opt, diag); });
         out.wallS = std::chrono::duration<double>(Clock::now() - t0).count();
+        out.cpuS = CpuSeconds() - c0;
+        out.receiverHits = res.receiverHits;
         out.seats = static_cast<int64_t>(res.histograms.size());
         out.rays = res.rays;
         out.segments = res.segments;
@@ -78,8 +91,10 @@ bool RunCase(const std::string& name, const hw::Room& room, int64_t rays, int th
         opt.receivers = {0};
         std::vector<hw::RawCast> casts = hw::CollectCasts(room, 0, opt, 4000000);
         auto t0 = Clock::now();
+        const double c0 = CpuSeconds();
         int64_t hits = arena.execute([&] { return hw::CastRaw(room, casts); });
         out.wallS = std::chrono::duration<double>(Clock::now() - t0).count();
+        out.cpuS = CpuSeconds() - c0;
         out.seats = 0;
         out.rays = static_cast<int64_t>(casts.size());
         out.segments = static_cast<int64_t>(casts.size());
@@ -130,7 +145,7 @@ const bool kRegistered = hwcli::AddCommand(
                 for (const std::string& name : Split(args->cases))
                     for (const std::string& t : Split(args->threads)) {
                         const int threads = std::max(1, std::stoi(t));
-                        std::vector<double> walls, rss;
+                        std::vector<double> walls, cpus, rss;
                         CaseResult r;
                         for (int k = 0; k < args->repeat; ++k) {
                             ResetPeakRss();
@@ -141,6 +156,7 @@ const bool kRegistered = hwcli::AddCommand(
                             }
                             if (runDiag.HasErrors()) return hwcli::Report(runDiag);
                             walls.push_back(r.wallS);
+                            cpus.push_back(r.cpuS);
                             rss.push_back(PeakRssMb());
                         }
                         const double wall = Median(walls);
@@ -154,6 +170,8 @@ const bool kRegistered = hwcli::AddCommand(
                         j["segments_per_s"] = wall > 0 ? static_cast<double>(r.segments) / wall : 0.0;
                         j["wall_s"] = wall;
                         j["peak_rss_mb"] = Median(rss);
+                        j["cpu_s"] = Median(cpus);
+                        j["receiver_hits"] = r.receiverHits;
                         std::printf("%s\n", j.dump().c_str());
                         std::fflush(stdout);
                     }

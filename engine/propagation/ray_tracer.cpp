@@ -45,6 +45,8 @@ constexpr int64_t kRaysPerChunk = 256;  // fixed, never derived from the thread 
 constexpr int kMaxSubRays = kBandCount;  // a split partitions the bands: at most 8 alive
 constexpr int kMaxFallbackCasts = 16;
 constexpr double kAirStepM = 0.1;
+constexpr int kMergeBlocks = 32;  // receiver blocks merged in parallel
+constexpr size_t kMergeGroup = 8; // chunks merged together
 
 /* Fills the air table of `m` for distances up to maxDist. */
 void BuildAirTable(double airM[kBandCount], double maxDist, std::vector<float>& table) {
@@ -150,6 +152,7 @@ struct ChunkOut {
     int64_t subRays = 0, segments = 0, reflections = 0, escapedRays = 0, fallbackCasts = 0;
     std::vector<EscapedRay> escapedSamples;
     std::vector<RawCast>* casts = nullptr;  // benchmark only: first casts of each segment
+    std::vector<uint32_t> blockStart;       // hits grouped by receiver block (see TraceSource)
 };
 
 struct SubRay {
@@ -661,6 +664,41 @@ TracerResult TraceSource(const Room& room, int source, const TracerOptions& opti
     std::vector<int> directionBins(result.histograms.size());
     for (size_t i = 0; i < result.histograms.size(); ++i)
         directionBins[i] = DirectionBinCount(result.histograms[i].binCount);
+    // Receivers fall into kMergeBlocks contiguous blocks; each chunk groups its hits by block
+    // (stable, so ray order is kept), and groups of kMergeGroup chunks are merged block by
+    // block in parallel. Every histogram still receives its hits in chunk order, then ray
+    // order, whatever the thread count: the sums are byte-identical.
+    const size_t receiverCount = scored.size();
+    auto blockOf = [&](uint32_t rec) { return static_cast<int>(static_cast<size_t>(rec) * kMergeBlocks / std::max<size_t>(receiverCount, 1)); };
+    auto apply = [&](const HitRecord& h) {
+        ReceiverHistogram& hist = result.histograms[h.receiver];
+        if (h.bin < 0 || h.bin >= hist.binCount) return;
+        float* e = &hist.energy[(static_cast<size_t>(h.batch) * hist.binCount + h.bin) * kBandCount];
+        for (int b = 0; b < kBandCount; ++b) e[b] += h.energy[b] * scale;
+        // Lateral record from the direct delay on.
+        if (h.lateralBin >= 0) {
+            const float cosA = h.cosLateral, cos2 = cosA * cosA, cosAbs = std::abs(cosA);
+            size_t at = (static_cast<size_t>(h.batch) * kLateralBins + h.lateralBin) * kBandCount;
+            for (int b = 0; b < kBandCount; ++b) {
+                hist.lateralSq[at + b] += h.energy[b] * scale * cos2;
+                hist.lateralAbs[at + b] += h.energy[b] * scale * cosAbs;
+            }
+        }
+        // Directional record: all-ray estimate, 125 Hz - 4 kHz summed.
+        if (h.coarseBin < directionBins[h.receiver]) {
+            float sum = 0;
+            for (int b = 1; b <= 6; ++b) sum += h.energy[b];
+            hist.directionEnergy[static_cast<size_t>(h.coarseBin) * kDirectionCells + h.cell] += sum;
+        }
+    };
+    std::vector<std::unique_ptr<ChunkOut>> pending;
+    auto flush = [&] {
+        tbb::parallel_for(0, kMergeBlocks, [&](int blk) {
+            for (const auto& ch : pending)
+                for (uint32_t k = ch->blockStart[blk]; k < ch->blockStart[blk + 1]; ++k) apply(ch->hits[k]);
+        });
+        pending.clear();
+    };
     tbb::parallel_pipeline(
         8,
         tbb::make_filter<void, int64_t>(tbb::filter_mode::serial_in_order,
@@ -681,6 +719,14 @@ TracerResult TraceSource(const Room& room, int source, const TracerOptions& opti
                     int64_t last = std::min(options.rays, first + kRaysPerChunk);
                     TraceChunk(model, grid, scored.data(), options, source, sourcePos, first, last, maxDist,
                                stamp, stampId, *out);
+                    // Counting sort of the hits by receiver block (stable).
+                    out->blockStart.assign(kMergeBlocks + 1, 0);
+                    for (const HitRecord& h : out->hits) ++out->blockStart[blockOf(h.receiver) + 1];
+                    for (int b = 0; b < kMergeBlocks; ++b) out->blockStart[b + 1] += out->blockStart[b];
+                    std::vector<HitRecord> grouped(out->hits.size());
+                    std::vector<uint32_t> fill(out->blockStart.begin(), out->blockStart.end() - 1);
+                    for (const HitRecord& h : out->hits) grouped[fill[blockOf(h.receiver)]++] = h;
+                    out->hits.swap(grouped);
                     return out.release();
                 }) &
             tbb::make_filter<ChunkOut*, void>(tbb::filter_mode::serial_in_order, [&](ChunkOut* raw) {
@@ -697,30 +743,13 @@ TracerResult TraceSource(const Room& room, int source, const TracerOptions& opti
                 result.reflections += out->reflections;
                 result.escapedRays += out->escapedRays;
                 result.fallbackCasts += out->fallbackCasts;
+                result.receiverHits += static_cast<int64_t>(out->hits.size());
                 for (const EscapedRay& e : out->escapedSamples)
                     if (result.escapedSamples.size() < kMaxEscapedRecords) result.escapedSamples.push_back(e);
-                for (const HitRecord& h : out->hits) {
-                    ReceiverHistogram& hist = result.histograms[h.receiver];
-                    if (h.bin < 0 || h.bin >= hist.binCount) continue;
-                    float* e = &hist.energy[(static_cast<size_t>(h.batch) * hist.binCount + h.bin) * kBandCount];
-                    for (int b = 0; b < kBandCount; ++b) e[b] += h.energy[b] * scale;
-                    // Lateral record from the direct delay on.
-                    if (h.lateralBin >= 0) {
-                        const float cosA = h.cosLateral, cos2 = cosA * cosA, cosAbs = std::abs(cosA);
-                        size_t at = (static_cast<size_t>(h.batch) * kLateralBins + h.lateralBin) * kBandCount;
-                        for (int b = 0; b < kBandCount; ++b) {
-                            hist.lateralSq[at + b] += h.energy[b] * scale * cos2;
-                            hist.lateralAbs[at + b] += h.energy[b] * scale * cosAbs;
-                        }
-                    }
-                    // Directional record: all-ray estimate, 125 Hz - 4 kHz summed.
-                    if (h.coarseBin < directionBins[h.receiver]) {
-                        float sum = 0;
-                        for (int b = 1; b <= 6; ++b) sum += h.energy[b];
-                        hist.directionEnergy[static_cast<size_t>(h.coarseBin) * kDirectionCells + h.cell] += sum;
-                    }
-                }
+                pending.push_back(std::move(out));
+                if (pending.size() >= kMergeGroup) flush();
             }));
+    flush();
     for (int b = 0; b < kBandCount; ++b) {
         result.emitted[b] = emitted[b];
         result.absorbed[b] = absorbed[b];

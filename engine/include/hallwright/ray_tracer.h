@@ -69,6 +69,7 @@ struct TracerResult {
     int64_t reflections = 0;
     int64_t escapedRays = 0;   // sub-rays that left the model
     int64_t fallbackCasts = 0; // casts repeated by the edge/corner fallback (see .cpp)
+    int64_t receiverHits = 0;  // receiver-sphere crossings scored
     std::vector<EscapedRay> escapedSamples;  // first kMaxEscapedRecords in ray order
 };
 
