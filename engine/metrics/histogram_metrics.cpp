@@ -102,7 +102,8 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
     };
     std::vector<std::array<BandParameters, kBandCount>> results(replicates);
     for (int r = 0; r < replicates; ++r) {
-        for (int band = 0; band < kBandCount; ++band) {
+        const bool skip = !options.perBatchValues && r >= 1 && r <= kBatchCount;
+        for (int band = 0; band < kBandCount && !skip; ++band) {
             EnergyEnvelope omni, sq, ab;
             omni.binStartS = 0;
             omni.binWidthS = kBinWidthS;
@@ -155,7 +156,10 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
 
     // STI per replicate (bands 125 Hz ... 8 kHz = indices 1 ... 7).
     std::vector<StiResult> sti(replicates);
+    std::vector<bool> computed(replicates, true);
+    for (int r = 1; r <= kBatchCount; ++r) computed[r] = options.perBatchValues;
     for (int r = 0; r < replicates; ++r) {
+        if (!computed[r]) continue;
         Mtf mtf;
         std::array<double, kStiBands> transfer{};
         for (int k = 0; k < kStiBands; ++k) {
@@ -179,7 +183,8 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
         const int hz = kNominalBandHz[band];
         auto get = [&](auto field) {
             std::vector<std::optional<double>> v(replicates);
-            for (int r = 0; r < replicates; ++r) v[r] = field(results[r][band]);
+            for (int r = 0; r < replicates; ++r)
+                if (computed[r]) v[r] = field(results[r][band]);
             return v;
         };
         const BandParameters& all = results[0][band];
@@ -220,11 +225,13 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
     }
     {
         std::vector<std::optional<double>> v(replicates);
-        for (int r = 0; r < replicates; ++r) v[r] = sti[r].sti;
+        for (int r = 0; r < replicates; ++r)
+            if (computed[r]) v[r] = sti[r].sti;
         rows.Add("STI", 0, "ratio", v, sti[0].note);
         if (options.perBandMti)
             for (int k = 0; k < kStiBands; ++k) {
-                for (int r = 0; r < replicates; ++r) v[r] = sti[r].mti[k];
+                for (int r = 0; r < replicates; ++r)
+                    if (computed[r]) v[r] = sti[r].mti[k];
                 rows.Add("MTI", kNominalBandHz[k + 1], "ratio", v, "");
             }
     }

@@ -278,3 +278,22 @@ TEST(HistogramMetrics, OccludedDirectUsesFirstArrivalAndFlags) {
     const double k = kLn10x6, early = 0.01 + (1 - std::exp(-k * 0.08)) / k, late = std::exp(-k * 0.08) / k;
     EXPECT_NEAR(Value(tab, "C80", 1000), 10 * std::log10(early / late), 1e-3);
 }
+
+// Skipping the per-batch values changes neither the value nor the interval (the jackknife
+// uses only the leave-one-out replicates), and per-batch values are means-consistent: for
+// noise-free identical batches each equals the all-ray value.
+TEST(HistogramMetrics, PerBatchValuesAreOptional) {
+    hw::ReceiverPaths paths;
+    hw::ReceiverHistogram h = ExponentialHistogram(1.0, 2.0);
+    for (size_t i = 0; i < h.energy.size(); ++i) h.energy[i] *= 1.0f + 0.3f * ((i * 2654435761u) % 7 == 0);
+    hw::HistogramMetricsOptions on, off;
+    off.perBatchValues = false;
+    const auto a = hw::ParametersFromHistogram(paths, h, on), b = hw::ParametersFromHistogram(paths, h, off);
+    ASSERT_EQ(a.values.size(), b.values.size());
+    for (size_t i = 0; i < a.values.size(); ++i) {
+        EXPECT_EQ(a.values[i].value, b.values[i].value) << a.values[i].parameter;
+        EXPECT_EQ(a.values[i].ci95, b.values[i].ci95) << a.values[i].parameter;
+    }
+    const auto c = hw::ParametersFromHistogram(paths, ExponentialHistogram(1.0, 2.0), on);
+    for (double v : c.Find("C80", 1000)->perBatch) EXPECT_NEAR(v, *c.Find("C80", 1000)->value, 1e-9);
+}

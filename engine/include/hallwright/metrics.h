@@ -42,8 +42,9 @@ struct ParameterValue {
     std::optional<double> value;    // empty when it cannot be computed (note says why)
     std::optional<double> ci95;     // half-width of the 95 % interval (histogram path only)
     std::string note;
-    std::vector<double> perBatch;     // histogram path: specular + one batch's tracer part
-    std::vector<double> leaveOneOut;  // histogram path: jackknife replicates (all batches but b)
+    // Histogram path only (B entries each, NaN where the value is missing or not computed):
+    std::vector<double> perBatch;     // specular + one batch's tracer part
+    std::vector<double> leaveOneOut;  // jackknife replicates: specular + all batches but b
 };
 
 /* All parameters of one source-receiver pair. */
@@ -175,6 +176,9 @@ struct HistogramMetricsOptions {
     Vec3 up = Vec3(0, 1, 0);              // internal frame: y up
     SpeechConditions speech;
     bool perBandMti = true;               // add MTI rows (band 125 ... 8000)
+    /* Also compute ParameterValue::perBatch (specular + one batch each). The jackknife
+       needs only the leave-one-out replicates; off saves 8 of the 17 evaluations. */
+    bool perBatchValues = true;
 };
 
 /* Reference energy of G in histogram units: unit-energy source, free field, 10 m, no air. */
