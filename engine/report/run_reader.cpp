@@ -1,0 +1,228 @@
+// Reading a finished run's tables back (parameters.csv, seats.csv, optional run.json) for
+// `hallwright compare`. Every problem names file:line and how to fix it.
+#include <cmath>
+#include <cstdlib>
+#include <fstream>
+#include <map>
+#include <sstream>
+
+#include <nlohmann/json.hpp>
+
+#include "hallwright/run_compare.h"
+#include "hallwright/scene.h"
+
+namespace hallwright {
+
+namespace {
+
+struct CsvRecord {
+    std::vector<std::string> fields;
+    int line = 0;  // line where the record starts (1-based)
+};
+
+/* RFC 4180 style records: quoted fields may hold commas, doubled quotes and newlines. */
+bool ParseCsv(const std::string& text, const std::string& path, std::vector<CsvRecord>& out, Diagnostics& diag) {
+    int line = 1;
+    size_t i = 0;
+    while (i < text.size()) {
+        CsvRecord rec;
+        rec.line = line;
+        std::string field;
+        bool quoted = false, wasQuoted = false;
+        for (;;) {
+            if (i >= text.size()) {
+                if (quoted) {
+                    diag.Error(SourceLoc{path, rec.line, 0, ""},
+                               "a quoted field is never closed; the file is cut short or garbled — rerun the simulation");
+                    return false;
+                }
+                rec.fields.push_back(field);
+                break;
+            }
+            const char c = text[i++];
+            if (quoted) {
+                if (c == '"') {
+                    if (i < text.size() && text[i] == '"') field += '"', ++i;
+                    else quoted = false;
+                } else {
+                    if (c == '\n') ++line;
+                    field += c;
+                }
+            } else if (c == '"' && field.empty() && !wasQuoted) {
+                quoted = wasQuoted = true;
+            } else if (c == ',') {
+                rec.fields.push_back(field);
+                field.clear();
+                wasQuoted = false;
+            } else if (c == '\n' || c == '\r') {
+                if (c == '\r' && i < text.size() && text[i] == '\n') ++i;
+                ++line;
+                rec.fields.push_back(field);
+                break;
+            } else {
+                field += c;
+            }
+        }
+        if (!(rec.fields.size() == 1 && rec.fields[0].empty())) out.push_back(std::move(rec));
+    }
+    return true;
+}
+
+bool ReadFile(const std::string& path, std::string& text, Diagnostics& diag, const std::string& what) {
+    std::ifstream in(path, std::ios::binary);
+    if (!in) {
+        diag.Error(SourceLoc{path, 0, 0, ""}, "cannot open " + what +
+                                                  " — give the output directory of `hallwright simulate` (it holds "
+                                                  "parameters.csv and seats.csv)");
+        return false;
+    }
+    std::ostringstream ss;
+    ss << in.rdbuf();
+    text = ss.str();
+    return true;
+}
+
+/* Column indices of the required names; an error names the missing one. */
+bool Columns(const CsvRecord& header, const std::vector<std::string>& names, const std::string& path,
+             std::map<std::string, size_t>& index, Diagnostics& diag) {
+    for (size_t k = 0; k < header.fields.size(); ++k) index[header.fields[k]] = k;
+    for (const auto& n : names)
+        if (!index.count(n)) {
+            diag.Error(SourceLoc{path, header.line, 0, ""},
+                       "the header has no column \"" + n + "\" — this is not a run table of this program's version");
+            return false;
+        }
+    return true;
+}
+
+bool Number(const std::string& text, std::optional<double>& out, bool allowEmpty) {
+    if (text.empty()) {
+        out.reset();
+        return allowEmpty;
+    }
+    char* end = nullptr;
+    const double v = std::strtod(text.c_str(), &end);
+    if (end != text.c_str() + text.size() || !std::isfinite(v)) return false;
+    out = v;
+    return true;
+}
+
+}  // namespace
+
+std::optional<RunTables> ReadRun(const std::string& dir, Diagnostics& diag) {
+    RunTables run;
+    run.dir = dir;
+    const int errorsBefore = diag.ErrorCount();
+
+    // Model units from run.json when the run recorded them (positions in seats.csv use them).
+    {
+        std::ifstream in(dir + "/run.json", std::ios::binary);
+        if (in) {
+            std::ostringstream ss;
+            ss << in.rdbuf();
+            const auto j = nlohmann::json::parse(ss.str(), nullptr, false);
+            std::string units;
+            if (j.is_object()) {
+                if (j.contains("model_units") && j["model_units"].is_string()) units = j["model_units"];
+                else if (j.contains("scene") && j["scene"].is_object() && j["scene"].contains("units") &&
+                         j["scene"]["units"].is_string())
+                    units = j["scene"]["units"];
+            }
+            if (!units.empty()) {
+                try {
+                    run.metresPerUnit = ModelUnitScale(units);
+                } catch (const std::invalid_argument&) {
+                    diag.Warning(SourceLoc{dir + "/run.json", 0, 0, ""},
+                                 "unknown model units \"" + units + "\"; seat positions are taken as metres");
+                }
+            }
+        }
+    }
+
+    const std::string pPath = dir + "/parameters.csv";
+    std::string text;
+    std::vector<CsvRecord> recs;
+    if (ReadFile(pPath, text, diag, "the run's parameters.csv") && ParseCsv(text, pPath, recs, diag)) {
+        std::map<std::string, size_t> col;
+        if (recs.empty()) {
+            diag.Error(SourceLoc{pPath, 1, 0, ""}, "the file is empty — rerun the simulation");
+        } else if (Columns(recs[0], {"source", "receiver", "zone", "band", "parameter", "value", "ci95", "unit", "note"},
+                           pPath, col, diag)) {
+            for (size_t r = 1; r < recs.size(); ++r) {
+                const auto& f = recs[r].fields;
+                if (f.size() != recs[0].fields.size()) {
+                    diag.Error(SourceLoc{pPath, recs[r].line, 0, ""},
+                               "expected " + std::to_string(recs[0].fields.size()) + " fields, found " +
+                                   std::to_string(f.size()) + " — the file is garbled; rerun the simulation");
+                    continue;
+                }
+                RunParameter p;
+                p.line = recs[r].line;
+                p.source = f[col["source"]];
+                p.receiver = f[col["receiver"]];
+                p.zone = f[col["zone"]];
+                p.parameter = f[col["parameter"]];
+                p.unit = f[col["unit"]];
+                p.note = f[col["note"]];
+                const std::string band = f[col["band"]];
+                std::optional<double> bandValue;
+                if (band == "avg") p.band = 0;
+                else if (Number(band, bandValue, false) && *bandValue == std::floor(*bandValue) && *bandValue > 0)
+                    p.band = static_cast<int>(*bandValue);
+                else {
+                    diag.Error(SourceLoc{pPath, recs[r].line, 0, ""},
+                               "band \"" + band + "\" is neither a frequency in Hz nor \"avg\"");
+                    continue;
+                }
+                if (!Number(f[col["value"]], p.value, true) || !Number(f[col["ci95"]], p.ci95, true)) {
+                    diag.Error(SourceLoc{pPath, recs[r].line, 0, ""},
+                               "value or ci95 is not a number (\"" + f[col["value"]] + "\", \"" + f[col["ci95"]] +
+                                   "\") — the file is garbled; rerun the simulation");
+                    continue;
+                }
+                if (p.source.empty() || p.receiver.empty() || p.parameter.empty()) {
+                    diag.Error(SourceLoc{pPath, recs[r].line, 0, ""}, "source, receiver and parameter must not be empty");
+                    continue;
+                }
+                run.parameters.push_back(std::move(p));
+            }
+        }
+    }
+
+    const std::string sPath = dir + "/seats.csv";
+    recs.clear();
+    if (ReadFile(sPath, text, diag, "the run's seats.csv") && ParseCsv(text, sPath, recs, diag)) {
+        std::map<std::string, size_t> col;
+        if (recs.empty()) {
+            diag.Error(SourceLoc{sPath, 1, 0, ""}, "the file is empty — rerun the simulation");
+        } else if (Columns(recs[0], {"source", "receiver", "zone", "x", "y", "z", "direct_occluded"}, sPath, col, diag)) {
+            for (size_t r = 1; r < recs.size(); ++r) {
+                const auto& f = recs[r].fields;
+                if (f.size() != recs[0].fields.size()) {
+                    diag.Error(SourceLoc{sPath, recs[r].line, 0, ""},
+                               "expected " + std::to_string(recs[0].fields.size()) + " fields, found " +
+                                   std::to_string(f.size()) + " — the file is garbled; rerun the simulation");
+                    continue;
+                }
+                RunSeat s;
+                s.line = recs[r].line;
+                s.source = f[col["source"]];
+                s.receiver = f[col["receiver"]];
+                s.zone = f[col["zone"]];
+                std::optional<double> x, y, z;
+                if (!Number(f[col["x"]], x, false) || !Number(f[col["y"]], y, false) || !Number(f[col["z"]], z, false)) {
+                    diag.Error(SourceLoc{sPath, recs[r].line, 0, ""},
+                               "the seat position is not three numbers — the file is garbled; rerun the simulation");
+                    continue;
+                }
+                s.position = Vec3(*x, *y, *z);
+                s.directOccluded = f[col["direct_occluded"]] == "1";
+                run.seats.push_back(std::move(s));
+            }
+        }
+    }
+    if (diag.ErrorCount() > errorsBefore) return std::nullopt;
+    return run;
+}
+
+}  // namespace hallwright
