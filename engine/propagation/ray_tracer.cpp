@@ -406,9 +406,12 @@ void TraceChunk(const Model& m, const ReceiverGrid& grid, const ScoredReceiver* 
                         h.receiver = rec;
                         h.bin = static_cast<int32_t>(timeS / kBinWidthS);
                         h.coarseBin = static_cast<int32_t>(timeS / kDirectionBinS);
+                        // Chord centres of the direct sound lie up to r^2/(2 D) closer than the
+                        // sphere centre, so arrivals up to r/c early count in the first bin.
                         const double lt = timeS - receivers[rec].directDelayS;
-                        h.lateralBin = lt >= 0 && lt < kLateralWindowS
-                                           ? static_cast<int16_t>(std::min(kLateralBins - 1, static_cast<int>(lt / kBinWidthS)))
+                        h.lateralBin = lt >= -receivers[rec].radius * invC && lt < kLateralWindowS
+                                           ? static_cast<int16_t>(std::min(kLateralBins - 1,
+                                                                           static_cast<int>(std::max(lt, 0.0) / kBinWidthS)))
                                            : int16_t(-1);
                         h.batch = static_cast<uint8_t>(batch);
                         if (cell < 0) cell = DirectionCell(arrival);

@@ -600,5 +600,52 @@ TEST(RayTracer, HybridEqualsTracerAloneWithinIntervals) {
     }
 }
 
+// Directional records in free field (definitions of propagation.h): the direct sound arrives
+// from the source, so all its energy is in the source's direction cell, and it lies on the
+// null of the lateral figure-of-eight (ISO 3382-1 LF: the lateral axis is perpendicular to the
+// source direction), up to the angular size of the sphere, (r/D)^2 = 0.01 here.
+TEST(RayTracer, DirectSoundLandsInSourceCellAndOnLateralNull) {
+    Scene s = MakeBoxScene(60, 60, 60, UniformMaterial("absorber", 1.0, 0.0));
+    // Source 10 m away toward the centre of a direction cell (azimuth -67.5 deg, d.y = 0.125),
+    // so the 5.7-degree half-angle of the sphere stays inside the cell.
+    const double az = -3 * kPi / 8, dy = 0.125, horiz = std::sqrt(1 - dy * dy);
+    const Vec3 rec(30, 30, 30), src = rec + 10 * Vec3(horiz * std::cos(az), dy, horiz * std::sin(az));
+    AddSource(s, src);
+    AddReceiver(s, rec);
+    auto built = Build(std::move(s));
+    ASSERT_TRUE(built);
+    TracerOptions opt;
+    opt.rays = 100000;
+    opt.recordAll = true;
+    opt.receiverRadiusM = 1.0;
+    opt.durationS = 0.2;
+    Diagnostics diag;
+    TracerResult res = TraceSource(*built->room, 0, opt, diag);
+    const ReceiverHistogram& h = res.histograms[0];
+    const int cell = DirectionCell((src - rec).normalized());
+    double inCell = 0, total = 0;
+    for (size_t i = 0; i < h.directionEnergy.size(); ++i) {
+        total += h.directionEnergy[i];
+        if (static_cast<int>(i % kDirectionCells) == cell) inCell += h.directionEnergy[i];
+    }
+    double bandsSum = 0;  // 125 Hz - 4 kHz, mean over batches
+    for (int k = 0; k < kBatchCount; ++k)
+        for (int b = 1; b <= 6; ++b) bandsSum += BinSum(h, k, b) / kBatchCount;
+    ASSERT_GT(total, 0);
+    EXPECT_NEAR(total, bandsSum, 1e-5 * bandsSum);
+    EXPECT_GT(inCell, 0.999 * total);
+    double energy = 0, sq = 0, absSum = 0;
+    for (int k = 0; k < kBatchCount; ++k)
+        for (int i = 0; i < kLateralBins; ++i) {
+            sq += h.lateralSq[(static_cast<size_t>(k) * kLateralBins + i) * kBandCount + 4];
+            absSum += h.lateralAbs[(static_cast<size_t>(k) * kLateralBins + i) * kBandCount + 4];
+        }
+    for (int k = 0; k < kBatchCount; ++k) energy += BinSum(h, k, 4);
+    ASSERT_GT(energy, 0);
+    EXPECT_LT(sq / energy, 0.01);  // (r/D)^2
+    EXPECT_LT(absSum / energy, 0.1);  // r/D
+    EXPECT_GE(absSum, sq);
+}
+
 }  // namespace
 }  // namespace hallwright
