@@ -266,6 +266,7 @@ ObjModel ParseObj(std::string_view text, const std::string& path, Diagnostics& d
             face.group = currentGroup;
             face.material = currentMaterial;
             face.first = corners.size();
+            std::vector<IndexRef> faceOther;  // texture/normal refs, kept if the face is accepted
             bool ok = true;
             for (size_t k = 1; k < tokens.size(); ++k) {
                 auto [tok, col] = tokens[k];
@@ -319,7 +320,7 @@ ObjModel ParseObj(std::string_view text, const std::string& path, Diagnostics& d
                     if (part == 0)
                         corners.push_back({value, col, kind});
                     else
-                        otherRefs.push_back({faces.size(), {value, col, kind}});
+                        faceOther.push_back({value, col, kind});
                 }
                 if (!ok) break;
             }
@@ -331,6 +332,7 @@ ObjModel ParseObj(std::string_view text, const std::string& path, Diagnostics& d
             if (currentMaterial < 0) {
                 if (model.facesWithoutMaterial++ == 0) model.firstLineWithoutMaterial = statementLine;
             }
+            for (const IndexRef& ref : faceOther) otherRefs.push_back({faces.size(), ref});
             faces.push_back(face);
             continue;
         }

@@ -106,6 +106,16 @@ TEST(ObjReader, RejectsBadFaceIndicesWithLine) {
     EXPECT_TRUE(HasError(diag, "hall.obj", 10, "too many '/' parts"));
 }
 
+// Found by tests/fuzz/obj_fuzz.cpp: a rejected face with texture references must not leave
+// them behind (they pointed at a face that was never stored).
+TEST(ObjReader, RejectedFaceWithTextureIndicesLeavesNothingBehind) {
+    Diagnostics diag;
+    ObjModel m = ParseObj("v 0 0 0\nv 1 0 0\nv 0 1 0\nf 1/5 2/6 0\n", "hall.obj", diag);
+    EXPECT_TRUE(HasError(diag, "hall.obj", 4, "face vertex index 0 is invalid"));
+    EXPECT_EQ(diag.ErrorCount(), 1) << diag.ToString();
+    EXPECT_EQ(m.mesh.TriangleCount(), 0u);
+}
+
 TEST(ObjReader, RejectsEmptyBinaryFacelessAndUnreadableFiles) {
     Diagnostics diag;
     ParseObj("", "a.obj", diag);

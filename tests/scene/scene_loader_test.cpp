@@ -17,6 +17,21 @@ const std::string kMinimal =
     "[[source]]\nname = \"S\"\nposition = [2, 1.5, 2]\n"
     "[[receiver]]\nname = \"R\"\nposition = [6, 1.2, 8]\n";
 
+// A scene file that sets every key of the schema (SceneSchema).
+const std::string kEveryKey =
+        "title = \"Test hall\"\n"
+        "[model]\nmesh = \"box.obj\"\nunits = \"m\"\nup = \"y\"\n"
+        "[materials]\ntables = [\"mats.csv\"]\n[materials.assign]\nconcrete = \"mine\"\n"
+        "[air]\ntemperature_c = 12.5\nhumidity_pct = 70\npressure_kpa = 95\n"
+        "[[source]]\nname = \"A\"\nposition = [2, 1.5, 2]\n"
+        "[[source]]\nname = \"B\"\nposition = [6, 1.5, 2]\n"
+        "[[receiver]]\nname = \"R\"\nposition = [6, 1.2, 8]\nzone = \"stalls\"\nfacing = [0, 0, -1]\n"
+        "[[receiver]]\nname = \"Q\"\nposition = [4, 1.2, 8]\nfacing = \"B\"\n"
+        "[[seating]]\nzone = \"floor\"\nsurfaces = [\"floor\"]\nspacing_m = 0.9\near_height_m = 1.1\nfacing = \"B\"\n"
+        "[simulation]\nrays = 5000\nimage_order = 2\nduration_s = 1.5\nsample_rate = 44100\nseed = 7\n"
+        "bands = [4000, 63, 8000]\n"
+        "[review]\nvenue = \"theatre\"\nflutter_max_angle_deg = 5\n";
+
 // Writes box.obj plus scene.toml into a fresh directory and returns the scene path.
 std::string WriteScene(const std::string& name, const std::string& toml, const std::string& obj = BoxObj(8, 4, 10)) {
     const std::string dir = test::TempDir("scene_loader/" + name);
@@ -56,18 +71,7 @@ TEST(SceneLoader, MinimalSceneGetsEveryDocumentedDefault) {
 }
 
 TEST(SceneLoader, ReadsEveryKey) {
-    const std::string toml =
-        "title = \"Test hall\"\n"
-        "[model]\nmesh = \"box.obj\"\nunits = \"m\"\nup = \"y\"\n"
-        "[materials]\ntables = [\"mats.csv\"]\n[materials.assign]\nconcrete = \"mine\"\n"
-        "[air]\ntemperature_c = 12.5\nhumidity_pct = 70\npressure_kpa = 95\n"
-        "[[source]]\nname = \"A\"\nposition = [2, 1.5, 2]\n"
-        "[[source]]\nname = \"B\"\nposition = [6, 1.5, 2]\n"
-        "[[receiver]]\nname = \"R\"\nposition = [6, 1.2, 8]\nzone = \"stalls\"\nfacing = [0, 0, -1]\n"
-        "[[receiver]]\nname = \"Q\"\nposition = [4, 1.2, 8]\nfacing = \"B\"\n"
-        "[[seating]]\nzone = \"floor\"\nsurfaces = [\"floor\"]\nspacing_m = 0.9\near_height_m = 1.1\nfacing = \"B\"\n"
-        "[simulation]\nrays = 5000\nimage_order = 2\nduration_s = 1.5\nsample_rate = 44100\nseed = 7\n"
-        "bands = [4000, 63, 8000]\n";
+    const std::string& toml = kEveryKey;
     const std::string path = WriteScene("every_key", toml);
     test::WriteFile(std::filesystem::path(path).parent_path().string(), "mats.csv",
                     "material,a125,a250,a500,a1k,a2k,a4k,s125,s250,s500,s1k,s2k,s4k\n"
@@ -98,6 +102,8 @@ TEST(SceneLoader, ReadsEveryKey) {
     EXPECT_EQ(scene->settings.sampleRate, 44100);
     EXPECT_EQ(scene->settings.seed, 7u);
     EXPECT_EQ(scene->settings.reportedBands, (std::vector<int>{0, 6, 7}));
+    EXPECT_EQ(scene->review.venue, "theatre");
+    EXPECT_DOUBLE_EQ(scene->review.flutterMaxAngleDeg, 5.0);
 }
 
 TEST(SceneLoader, RejectsUnknownKeysWithDidYouMean) {
@@ -114,11 +120,19 @@ TEST(SceneLoader, RejectsUnknownKeysWithDidYouMean) {
     EXPECT_TRUE(HasError(later, "hall.toml", 9, "unknown key 'output'"));
 }
 
-TEST(SceneLoader, EveryKeyOfTheSchemaIsReadByTheLoader) {
-    // Each schema section is a known name and every section key appears only once.
-    for (const auto& s : SceneSchema()) {
-        std::set<std::string> keys(s.keys.begin(), s.keys.end());
-        EXPECT_EQ(keys.size(), s.keys.size()) << s.name;
+// A key added to the schema must also be added to kEveryKey (and checked in ReadsEveryKey).
+TEST(SceneLoader, EverySchemaKeyIsCoveredByTheEveryKeyScene) {
+    for (const auto& section : SceneSchema()) {
+        std::set<std::string> unique(section.keys.begin(), section.keys.end());
+        EXPECT_EQ(unique.size(), section.keys.size()) << section.name;
+        for (const auto& key : section.keys) {
+            const bool isSection = section.name.empty() && key != "title";
+            const std::string pattern = isSection ? "[" + key : "\n" + key + " = ";
+            const std::string asTable = "[" + section.name + "." + key + "]";
+            EXPECT_TRUE(("\n" + kEveryKey).find(pattern) != std::string::npos ||
+                        kEveryKey.find(asTable) != std::string::npos)
+                << section.name << "." << key;
+        }
     }
 }
 
