@@ -59,6 +59,8 @@ bool WriteWav(const std::string& path, const WavData& data, WavFormat fmt, Diagn
         return false;
     }
     if (fmt == WavFormat::kPcm24) sf_command(f, SFC_SET_CLIPPING, nullptr, SF_TRUE);
+    // No PEAK chunk: it carries a time stamp, which would make identical runs differ by bytes.
+    sf_command(f, SFC_SET_ADD_PEAK_CHUNK, nullptr, SF_FALSE);
     const sf_count_t frames = static_cast<sf_count_t>(data.FrameCount());
     const sf_count_t written = sf_writef_float(f, data.samples.data(), frames);
     const int closeErr = sf_close(f);
