@@ -128,7 +128,8 @@ struct Model {
     double eps = 1e-5, backoff = 1e-4;
     double airM[kBandCount] = {};
     /* e^(-m d) per band at d = i * kAirStepM, [i * kBandCount + band], linearly interpolated
-       for receiver scores (relative error < (m h)^2 / 8 = 2e-6 at 8 kHz); segments use exp. */
+       (relative error < (m h)^2 / 8 = 2e-6 at 8 kHz) for segments and receiver scores; the
+       bookkeeping stays exact since the air share is e - kept. */
     std::vector<float> airTable;
     double c = 343.2;
 };
@@ -269,6 +270,15 @@ Vec3 ClosestPointOnTriangle(const Vec3& p, const Vec3& a, const Vec3& b, const V
     if (va <= 0 && (d4 - d3) >= 0 && (d5 - d6) >= 0) return b + (c - b) * ((d4 - d3) / ((d4 - d3) + (d5 - d6)));
     const double denom = 1.0 / (va + vb + vc);
     return a + ab * (vb * denom) + ac * (vc * denom);
+}
+
+/* e^(-m_b d) for every band from the air table (linear interpolation; d <= the table's end). */
+inline void AirFactors(const Model& m, double d, double out[kBandCount]) {
+    const double x = d * (1.0 / kAirStepM);
+    const size_t i = static_cast<size_t>(x);
+    const double f = x - static_cast<double>(i);
+    const float* a0 = &m.airTable[i * kBandCount];
+    for (int b = 0; b < kBandCount; ++b) out[b] = a0[b] + f * (a0[b + kBandCount] - a0[b]);
 }
 
 struct CastResult {
@@ -436,8 +446,10 @@ void TraceChunk(const Model& m, const ReceiverGrid& grid, const ScoredReceiver* 
                     break;
                 }
                 if (hit.s >= left) {  // the duration ends inside this segment
+                    double airLeft[kBandCount];
+                    AirFactors(m, left, airLeft);
                     for (int b = 0; b < kBandCount; ++b) {
-                        double kept = r.e[b] * std::exp(-m.airM[b] * left);
+                        double kept = r.e[b] * airLeft[b];
                         out.air[b] += r.e[b] - kept;
                         out.remaining[b] += kept;
                     }
@@ -446,8 +458,10 @@ void TraceChunk(const Model& m, const ReceiverGrid& grid, const ScoredReceiver* 
                 // Air absorption along the segment, then absorption at the surface.
                 const TriangleData& tri = m.triangles[hit.tri];
                 const MaterialData& mat = m.materials[tri.material];
+                double airSeg[kBandCount];
+                AirFactors(m, hit.s, airSeg);
                 for (int b = 0; b < kBandCount; ++b) {
-                    double kept = r.e[b] * std::exp(-m.airM[b] * hit.s);
+                    double kept = r.e[b] * airSeg[b];
                     out.air[b] += r.e[b] - kept;
                     double absorbed = kept * mat.alpha[b];
                     out.absorbed[b] += absorbed;
@@ -522,8 +536,9 @@ std::vector<RawCast> CollectCasts(const Room& room, int source, const TracerOpti
                                   int64_t maxCasts) {
     std::vector<RawCast> casts;
     if (source < 0 || source >= static_cast<int>(room.scene.sources.size()) || options.rays <= 0) return casts;
-    const Model model = BuildModel(room, options);
+    Model model = BuildModel(room, options);
     const double duration = options.durationS ? *options.durationS : DefaultTraceDuration(room, source);
+    BuildAirTable(model.airM, duration * model.c, model.airTable);
     const ReceiverGrid noReceivers({}, {});
     std::vector<uint64_t> stamp;
     uint64_t stampId = 0;
