@@ -17,7 +17,11 @@
 // segment crossing it scores E * chord / V_sphere (V = 4/3 pi r^3), at the time of the chord
 // midpoint with the air loss up to that point. In free field this track-length estimator
 // gives the volume average of 1/(4 pi d^2) over the sphere, i.e. 1/(4 pi D^2) up to
-// O(r^2/D^2) (units of propagation.h).
+// O(r^2/D^2) (units of propagation.h). Hybrid rule: a sub-ray is scored only if it has had a
+// Lambert reflection or more than imageOrder reflections (or with recordAll); the direct
+// sound and purely specular paths up to imageOrder come from the image sources. No diffuse
+// rain and no Russian roulette: every ray is followed to the duration, so the bookkeeping
+// emitted = absorbed + air + escaped + remaining holds per band to rounding.
 #include <cstdint>
 #include <optional>
 #include <vector>
@@ -31,11 +35,13 @@ namespace hallwright {
 
 enum class ReflectionSampling {
     kBandSplit,         // default: split the ray where bands decide differently (see above)
-    kSharedDirection,   // one choice for all bands, per-band reweighting (measurement only)
+    kSharedDirection,   // one choice for all bands, per-band reweighting (measurement only;
+                        // its weights make the bookkeeping hold in expectation only)
 };
 
 struct TracerOptions {
-    int64_t rays = 100000;           // primary rays per source (split into kBatchCount batches)
+    int64_t rays = 100000;           // primary rays per source; ray i is in batch i % kBatchCount
+                                     // (use a multiple of kBatchCount for equal batches)
     uint64_t seed = 1;
     int imageOrder = 3;              // purely specular paths up to this order are not recorded
     bool recordAll = false;          // tracer alone: also record direct and low-order specular
