@@ -259,6 +259,7 @@ bool FitTail(EnergyEnvelope& env, double t0, double endS) {
 
 BandParameters ComputeBandParameters(const BandInput& bi) {
     BandParameters out;
+    out.recordEndS = bi.endS;
     const EnvelopeIntegrator in(*bi.omni);
     const double t0 = bi.timeZeroS;
     const double e0 = in.EnergyAfter(t0);

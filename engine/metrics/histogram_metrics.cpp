@@ -115,11 +115,21 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
                 for (int k = 0; k < binCount; ++k) omni.bins[k] += w * hist.Energy(b, k, band);
             }
             for (const SpecularPath& p : paths.paths) omni.impulses.push_back({p.delayS, p.energy[band]});
-            FitTail(omni, t0, endS);
+            // The record ends where the tracer's energy ends (rays that all died before the
+            // histogram's end leave zeros, which are not a decay): tail and the dynamic-range
+            // rule are read there.
+            int last = binCount;
+            while (last > 0 && omni.bins[last - 1] == 0) --last;
+            double recordEnd = last * kBinWidthS;
+            for (const SpecularPath& p : paths.paths)
+                if (p.energy[band] > 0) recordEnd = std::max(recordEnd, std::min(endS, p.delayS + kBinWidthS));
+            if (last == 0 || recordEnd <= t0) recordEnd = endS;  // purely specular: defined throughout
+            omni.bins.resize(static_cast<size_t>(std::lround(std::ceil(recordEnd / kBinWidthS - 1e-9))));
+            FitTail(omni, t0, recordEnd);
             BandInput in;
             in.omni = &omni;
             in.timeZeroS = t0;
-            in.endS = endS;
+            in.endS = recordEnd;
             in.gridS = kBinWidthS;
             in.referenceEnergy = kReferenceEnergy10m;
             if (lateralAxis && haveLateralRecord) {
@@ -150,6 +160,7 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
                 in.lateralValidToS = hist.directDelayS + kLateralWindowS;
             }
             results[r][band] = ComputeBandParameters(in);
+            results[r][band].recordEndS = recordEnd;
             if (!in.lateralSq) results[r][band].lateralNote = lateralNote;
         }
     }
@@ -196,6 +207,9 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
             const double slope = all.lateSlopeDbPerS < 0 ? all.lateSlopeDbPerS
                                  : all.edt             ? -60.0 / *all.edt
                                                        : 0.0;
+            if (all.recordEndS < endS - 0.05)
+                return "; the tracer's energy ends at " + Fmt("%.2f", all.recordEndS) +
+                       " s, before duration_s: raise the rays' energy threshold or reflection limit";
             if (!(slope < 0)) return "; raise duration_s";
             const double extra = (all.decayEndDb - needDb) / -slope;
             const double suggestion = std::ceil((endS + 1.1 * extra) * 10.0) / 10.0;

@@ -162,7 +162,8 @@ TEST(HistogramMetrics, TracerLateralRecordUsesTheWindow) {
     direct.energy = hw::Bands::Constant(1.0);
     direct.arrivalFrom = hw::Vec3(1, 0, 0);
     paths.paths = {direct};
-    hw::ReceiverHistogram h = ExponentialHistogram(1.0, 1.0, 0.010, 0.0);
+    // A negligible decay (total 7e-11) keeps the record running to 1 s.
+    hw::ReceiverHistogram h = ExponentialHistogram(1.0, 1.0, 0.010, 1e-9);
     auto put = [&](int bin, int lbin, float e, float sq, float ab) {
         for (int b = 0; b < hw::kBatchCount; ++b)
             for (int band = 0; band < hw::kBandCount; ++band) {
@@ -296,4 +297,21 @@ TEST(HistogramMetrics, PerBatchValuesAreOptional) {
     }
     const auto c = hw::ParametersFromHistogram(paths, ExponentialHistogram(1.0, 2.0), on);
     for (double v : c.Find("C80", 1000)->perBatch) EXPECT_NEAR(v, *c.Find("C80", 1000)->value, 1e-9);
+}
+
+// Rays that all died before the end of the histogram leave zeros, not a decay: the record is
+// read as ending there, so a decay cut at 30 dB refuses T30 instead of fitting a truncated
+// Schroeder curve (Schroeder 1965 integration needs the whole decay or a tail).
+TEST(HistogramMetrics, TracerEnergyEndingEarlyIsNotSilence) {
+    hw::ReceiverPaths paths;
+    hw::ReceiverHistogram h = ExponentialHistogram(1.0, 3.0);
+    for (int i = 500; i < h.binCount; ++i)  // 0.5 s: 30 dB down
+        for (int b = 0; b < hw::kBatchCount; ++b)
+            for (int band = 0; band < hw::kBandCount; ++band)
+                h.energy[(static_cast<size_t>(b) * h.binCount + i) * hw::kBandCount + band] = 0;
+    const hw::ParameterTable tab = hw::ParametersFromHistogram(paths, h, {});
+    const hw::ParameterValue* t30 = tab.Find("T30", 1000);
+    EXPECT_FALSE(t30->value);
+    EXPECT_NE(t30->note.find("tracer's energy ends"), std::string::npos) << t30->note;
+    EXPECT_NEAR(Value(tab, "EDT", 1000), 1.0, 1e-3);  // 30 dB is enough for EDT (20 dB)
 }

@@ -140,6 +140,7 @@ struct BandParameters {
     double totalEnergy = 0;                  // whole response incl. tail
     double decayEndDb = 0;                   // level of the decay curve at the end of the record
     double lateSlopeDbPerS = 0;              // slope of the tail compensation (dB/s, < 0)
+    double recordEndS = 0;                   // where the record (or its energy) ends
 };
 
 /* Inputs of the core for one band. `lateralSq`/`lateralAbs` may be null (no LF/LFC);
