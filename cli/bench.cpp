@@ -12,6 +12,7 @@
 #include <cstdio>
 #include <fstream>
 #include <functional>
+#include <optional>
 #include <sstream>
 #include <string>
 #include <vector>
@@ -60,12 +61,12 @@ double Median(std::vector<double> v) {
 }
 
 /* Runs one case once inside an arena of `threads`; false if the case is unknown. */
-bool RunCase(const std::string& name, const hw::Room& room, int64_t rays, int threads, CaseResult& out,
-             hw::Diagnostics& diag) {
+bool RunCase(const std::string& name, const hw::Room& room, int64_t rays, uint64_t seed, int threads,
+             CaseResult& out, hw::Diagnostics& diag) {
     tbb::task_arena arena(threads);
     hw::TracerOptions opt;
     opt.rays = rays;
-    opt.seed = room.scene.settings.seed;
+    opt.seed = seed;
     opt.imageOrder = room.scene.settings.imageOrder;
     opt.durationS = room.scene.settings.durationS;
     using Clock = std::chrono::steady_clock;
@@ -124,12 +125,14 @@ const bool kRegistered = hwcli::AddCommand(
             std::string threads = "1,2";
             int64_t rays = 0;
             int repeat = 3;
+            std::optional<uint64_t> seed;
         };
         auto args = std::make_shared<Args>();
         sub->add_option("scenes", args->scenes, "scene.toml files (default: scenes/theatre/scene.toml)");
         sub->add_option("--cases", args->cases, "comma-separated cases: trace-1seat, trace-all-seats, raw-embree");
         sub->add_option("--threads", args->threads, "comma-separated thread counts");
         sub->add_option("--rays", args->rays, "rays per source (default: the scene's [simulation] rays)");
+        sub->add_option("--seed", args->seed, "random seed (default: the scene's [simulation] seed)");
         sub->add_option("--repeat", args->repeat, "runs per case; the median is printed")->check(CLI::Range(1, 99));
         return [args] {
             if (args->scenes.empty()) args->scenes.push_back("scenes/theatre/scene.toml");
@@ -144,13 +147,23 @@ const bool kRegistered = hwcli::AddCommand(
                 const int64_t rays = args->rays > 0 ? args->rays : room->scene.settings.rays;
                 for (const std::string& name : Split(args->cases))
                     for (const std::string& t : Split(args->threads)) {
-                        const int threads = std::max(1, std::stoi(t));
+                        int threads = 0;
+                        try {
+                            threads = std::stoi(t);
+                        } catch (const std::exception&) {
+                        }
+                        if (threads < 1) {
+                            std::fprintf(stderr, "bench: error: --threads takes positive integers, e.g. 1,2 (got \"%s\")\n",
+                                         t.c_str());
+                            return hwcli::kExitBadCommandLine;
+                        }
                         std::vector<double> walls, cpus, rss;
                         CaseResult r;
                         for (int k = 0; k < args->repeat; ++k) {
                             ResetPeakRss();
                             hw::Diagnostics runDiag;
-                            if (!RunCase(name, *room, rays, threads, r, runDiag)) {
+                            const uint64_t seed = args->seed ? *args->seed : room->scene.settings.seed;
+                            if (!RunCase(name, *room, rays, seed, threads, r, runDiag)) {
                                 std::fprintf(stderr, "bench: error: unknown case \"%s\"\n", name.c_str());
                                 return hwcli::kExitBadCommandLine;
                             }
