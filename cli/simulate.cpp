@@ -1,5 +1,6 @@
 // `hallwright simulate SCENE.toml --out DIR`: the whole prediction for every source and seat.
 // Wires the stages: room -> image sources + tracer -> synthesis -> parameters -> tables.
+#include <algorithm>
 #include <atomic>
 #include <chrono>
 #include <csignal>
@@ -19,6 +20,8 @@
 #include "hallwright/metrics.h"
 #include "hallwright/paths_csv.h"
 #include "hallwright/ray_tracer.h"
+#include "hallwright/report.h"
+#include "hallwright/review.h"
 #include "hallwright/response.h"
 #include "hallwright/room.h"
 #include "hallwright/room_acoustics.h"
@@ -73,6 +76,28 @@ void ComputeSeatTables(const hallwright::Scene& scene, int s, const std::vector<
         seat.table = hallwright::ParametersFromHistogram(paths[r], histograms[r], mo);
         hallwright::AddSingleNumbers(seat.table);
     });
+}
+
+/* Seats whose decay curves go into the report: per zone, the seat nearest the zone's centroid. */
+std::vector<int> CurveSeats(const hallwright::Scene& scene) {
+    std::vector<std::string> zones;
+    for (const auto& r : scene.receivers)
+        if (std::find(zones.begin(), zones.end(), r.zone) == zones.end()) zones.push_back(r.zone);
+    std::vector<int> chosen;
+    for (const auto& zone : zones) {
+        hallwright::Vec3 centre = hallwright::Vec3::Zero();
+        int n = 0;
+        for (const auto& r : scene.receivers)
+            if (r.zone == zone) centre += r.position, ++n;
+        centre /= n;
+        int best = -1;
+        for (int i = 0; i < static_cast<int>(scene.receivers.size()); ++i)
+            if (scene.receivers[i].zone == zone &&
+                (best < 0 || (scene.receivers[i].position - centre).norm() < (scene.receivers[best].position - centre).norm()))
+                best = i;
+        chosen.push_back(best);
+    }
+    return chosen;
 }
 
 /* The row a --target-ci entry is checked on: the single number (EDT -> EDT_M), or STI. */
@@ -185,6 +210,11 @@ int Run(const Options& opt) {
     std::vector<hallwright::SeatResult> seats;
     seats.reserve(scene.sources.size() * scene.receivers.size());
     hwcli::OutputWriter writer(opt.out, scene, room->geometry);
+    // Design review: the geometric rules once; echoes per source from its paths and histograms.
+    const auto reviewOptions = hallwright::ReviewOptionsFrom(scene);
+    std::vector<hallwright::Finding> findings = hallwright::ReviewRoom(scene, room->geometry, reviewOptions);
+    const std::vector<int> curveSeats = CurveSeats(scene);
+    std::vector<hallwright::SeatCurves> curves;
     double imageS = 0, traceS = 0, synthS = 0, metricsS = 0;
 
     for (int s = 0; s < static_cast<int>(scene.sources.size()) && !gInterrupted; ++s) {
@@ -237,6 +267,18 @@ int Run(const Options& opt) {
             traceS += Seconds(tStage);
         }
 
+        {
+            auto echoes = hallwright::ReviewEchoes(scene, room->geometry, paths, reviewOptions, &traced.histograms);
+            findings.insert(findings.end(), echoes.begin(), echoes.end());
+        }
+        if (s == 0)
+            for (int r : curveSeats) {
+                auto curve = hallwright::CurvesFromHistogram(paths[r], traced.histograms[r]);
+                curve.source = scene.sources[s].name;
+                curve.receiver = scene.receivers[r].name;
+                curve.zone = scene.receivers[r].zone;
+                curves.push_back(std::move(curve));
+            }
         if (opt.paths) writer.WritePaths(s, paths, diag);
         if (opt.histograms) writer.WriteHistograms(s, paths, traced.histograms, diag);
 
@@ -268,6 +310,18 @@ int Run(const Options& opt) {
     // Tables (written even after an interruption, for the sources that finished).
     tStage = Clock::now();
     writer.WriteTables(seats, diag);
+    hallwright::WriteTextFileAtomic((std::filesystem::path(opt.out) / "review.json").string(),
+                                    hallwright::FindingsToJson(findings), diag);
+    {
+        auto input = hallwright::MakeReportInput(scene, room->geometry, seats, estimates);
+        input.programVersion = std::string("hallwright ") + HALLWRIGHT_VERSION;
+        input.curves = std::move(curves);
+        input.findingsJson = hallwright::FindingsToJson(findings);
+        for (const auto& d : diag.Items()) input.warnings.push_back(hallwright::FormatDiagnostic(d));
+        input.raysPerSource = static_cast<int>(scene.settings.rays);
+        hallwright::WriteTextFileAtomic((std::filesystem::path(opt.out) / "report.html").string(),
+                                        hallwright::RenderReport(input), diag);
+    }
     timings["tables_s"] = Seconds(tStage);
     timings["total_s"] = Seconds(tStart);
     record.interrupted = gInterrupted.load();
