@@ -72,14 +72,18 @@ const bool kRegistered = hwcli::AddCommand(
             hwcli::Report(diag);
             if (!room) return hwcli::kExitBadInput;
             const auto options = hallwright::ReviewOptionsFrom(room->scene);
-            // Specular paths for the echo rule: image sources of every source, to the scene's order.
+            // Specular paths for the echo rule: image sources of every source, to the scene's
+            // order. (The tracer's diffuse part is not added here: it would cost a full trace,
+            // and echo findings from specular paths alone are therefore warnings.)
             std::vector<hallwright::ReceiverPaths> paths;
             const auto iso = hallwright::ImageSourceOptionsFrom(room->scene.settings);
+            hallwright::Diagnostics runDiag;
             for (size_t s = 0; s < room->scene.sources.size(); ++s) {
-                auto part = hallwright::ComputeImageSources(*room, static_cast<int>(s), iso, diag);
+                auto part = hallwright::ComputeImageSources(*room, static_cast<int>(s), iso, runDiag);
                 for (auto& p : part) paths.push_back(std::move(p));
             }
-            if (diag.HasErrors()) return hwcli::Report(diag) == hwcli::kExitOk ? hwcli::kExitRunFailure : hwcli::kExitBadInput;
+            hwcli::Report(runDiag);
+            if (runDiag.HasErrors()) return hwcli::kExitRunFailure;
             const auto findings = hallwright::ReviewRoom(room->scene, room->geometry, options, &paths);
             const std::string text = hallwright::FindingsToJson(findings);
 

@@ -173,13 +173,14 @@ double AirDensity(const AirConditions& air) {
 }
 
 std::vector<Finding> ReviewRoom(const Scene& scene, const Geometry& geometry, const ReviewOptions& options,
-                                const std::vector<ReceiverPaths>* paths) {
+                                const std::vector<ReceiverPaths>* paths,
+                                const std::vector<ReceiverHistogram>* diffuse) {
     std::vector<Finding> all;
     auto append = [&all](std::vector<Finding> part) {
         for (Finding& f : part) all.push_back(std::move(f));
     };
     append(ReviewFlutter(scene, geometry, options));
-    if (paths) append(ReviewEchoes(scene, geometry, *paths, options));
+    if (paths) append(ReviewEchoes(scene, geometry, *paths, options, diffuse));
     append(ReviewFocusing(scene, geometry, options));
     append(ReviewOverhangs(scene, geometry, options));
     append(ReviewFacings(scene));

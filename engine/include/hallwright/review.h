@@ -66,13 +66,17 @@ std::vector<Finding> ReviewFacings(const Scene& scene);
 std::vector<Finding> ReviewFacing(const Material& material, const AirConditions& air);
 /* Focusing: concave patches of facets, their centre and radius, and where they focus. */
 std::vector<Finding> ReviewFocusing(const Scene& scene, const Geometry& geometry, const ReviewOptions& options);
-/* Echoes: late strong specular arrivals (Dietsch & Kraak 1986) in the given paths. */
+/* Echoes: late strong specular arrivals judged by Dietsch & Kraak 1986 on the predicted
+   response: the specular paths plus, when given, the tracer's histograms of the same
+   (source, receiver) pairs (the diffuse part, which masks late arrivals). */
 std::vector<Finding> ReviewEchoes(const Scene& scene, const Geometry& geometry,
-                                  const std::vector<ReceiverPaths>& paths, const ReviewOptions& options);
+                                  const std::vector<ReceiverPaths>& paths, const ReviewOptions& options,
+                                  const std::vector<ReceiverHistogram>* diffuse = nullptr);
 
 /* Every rule that needs no simulation run (echo included only when `paths` is given). */
 std::vector<Finding> ReviewRoom(const Scene& scene, const Geometry& geometry, const ReviewOptions& options,
-                                const std::vector<ReceiverPaths>* paths = nullptr);
+                                const std::vector<ReceiverPaths>* paths = nullptr,
+                                const std::vector<ReceiverHistogram>* diffuse = nullptr);
 
 /* review.json text: {"findings": [...]} with the keys of issue 10. */
 std::string FindingsToJson(const std::vector<Finding>& findings);
