@@ -6,7 +6,9 @@
 //   trace-all-seats  tracer for every seat (hybrid rule, image order of the scene)
 //   raw-embree       the first casts of trace-1seat again, bare rtcIntersect1 (no bookkeeping):
 //                    segments_per_s here against trace-1seat is the bookkeeping overhead
-// Further cases (image-sources, synthesis, full-run) plug into RunCase below. Used by tools/bench.
+//   image-sources    accelerated image-source search, every seat, --image-order (default 3);
+//                    rays = search rays, segments = occlusion queries (not in the default list)
+// Further cases (synthesis, full-run) plug into RunCase below. Used by tools/bench.
 #include <algorithm>
 #include <chrono>
 #include <cstdio>
@@ -23,6 +25,7 @@
 #include <oneapi/tbb/task_arena.h>
 
 #include "command.h"
+#include "hallwright/image_sources.h"
 #include "hallwright/ray_tracer.h"
 #include "hallwright/room.h"
 
@@ -61,8 +64,8 @@ double Median(std::vector<double> v) {
 }
 
 /* Runs one case once inside an arena of `threads`; false if the case is unknown. */
-bool RunCase(const std::string& name, const hw::Room& room, int64_t rays, uint64_t seed, int threads,
-             CaseResult& out, hw::Diagnostics& diag) {
+bool RunCase(const std::string& name, const hw::Room& room, int64_t rays, uint64_t seed, int imageOrder,
+             int threads, CaseResult& out, hw::Diagnostics& diag) {
     tbb::task_arena arena(threads);
     hw::TracerOptions opt;
     opt.rays = rays;
@@ -84,6 +87,21 @@ bool RunCase(const std::string& name, const hw::Room& room, int64_t rays, uint64
         out.seats = static_cast<int64_t>(res.histograms.size());
         out.rays = res.rays;
         out.segments = res.segments;
+        return true;
+    }
+    if (name == "image-sources") {
+        // Accelerated image-source search for every seat (segments = occlusion queries).
+        hw::ImageSourceOptions io = hw::ImageSourceOptionsFrom(room.scene.settings);
+        io.order = imageOrder;
+        hw::ImageSourceStats stats;
+        auto t0 = Clock::now();
+        const double c0 = CpuSeconds();
+        auto paths = arena.execute([&] { return hw::ComputeImageSources(room, 0, io, diag, &stats); });
+        out.wallS = std::chrono::duration<double>(Clock::now() - t0).count();
+        out.cpuS = CpuSeconds() - c0;
+        out.seats = static_cast<int64_t>(paths.size());
+        out.rays = stats.searchRays;
+        out.segments = stats.occlusionQueries;
         return true;
     }
     if (name == "raw-embree") {
@@ -126,13 +144,16 @@ const bool kRegistered = hwcli::AddCommand(
             int64_t rays = 0;
             int repeat = 3;
             std::optional<uint64_t> seed;
+            int imageOrder = 3;
         };
         auto args = std::make_shared<Args>();
         sub->add_option("scenes", args->scenes, "scene.toml files (default: scenes/theatre/scene.toml)");
-        sub->add_option("--cases", args->cases, "comma-separated cases: trace-1seat, trace-all-seats, raw-embree");
+        sub->add_option("--cases", args->cases, "comma-separated cases: trace-1seat, trace-all-seats, raw-embree, image-sources");
         sub->add_option("--threads", args->threads, "comma-separated thread counts");
         sub->add_option("--rays", args->rays, "rays per source (default: the scene's [simulation] rays)");
         sub->add_option("--seed", args->seed, "random seed (default: the scene's [simulation] seed)");
+        sub->add_option("--image-order", args->imageOrder, "order of the image-sources case (issue 3: 3)")
+            ->check(CLI::Range(0, 10));
         sub->add_option("--repeat", args->repeat, "runs per case; the median is printed")->check(CLI::Range(1, 99));
         return [args] {
             if (args->scenes.empty()) args->scenes.push_back("scenes/theatre/scene.toml");
@@ -163,7 +184,7 @@ const bool kRegistered = hwcli::AddCommand(
                             ResetPeakRss();
                             hw::Diagnostics runDiag;
                             const uint64_t seed = args->seed ? *args->seed : room->scene.settings.seed;
-                            if (!RunCase(name, *room, rays, seed, threads, r, runDiag)) {
+                            if (!RunCase(name, *room, rays, seed, args->imageOrder, threads, r, runDiag)) {
                                 std::fprintf(stderr, "bench: error: unknown case \"%s\"\n", name.c_str());
                                 return hwcli::kExitBadCommandLine;
                             }
