@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <array>
 #include <complex>
 #include <memory>
 #include <mutex>
@@ -199,8 +200,59 @@ bool Validate(const ReceiverPaths& paths, const ReceiverHistogram& hist,
 
 /* The late part: Poisson Dirac sequence weighted per band to the mean histogram, band
    filtered, energy-corrected on each band's own time scale; added into `out` (size nOut). */
+/* Channel gains of one arrival direction: mono {1}, or AmbiX W, Y, Z, X in the head frame. */
+struct Encoder {
+    int channels = 1;
+    Vec3 front = Vec3::UnitX(), left = Vec3::UnitZ(), up = Vec3::UnitY();  // head frame
+    void Gains(const Vec3& dirInternal, float* g) const {
+        g[0] = 1.0f;
+        if (channels == 1) return;
+        // ACN 1, 2, 3 = Y, Z, X; SN3D first order: sin(az) cos(el), sin(el), cos(az) cos(el)
+        // (AmbiX, Nachbar et al. 2011), which are the head-frame coordinates of the unit
+        // direction.
+        g[1] = static_cast<float>(dirInternal.dot(left));
+        g[2] = static_cast<float>(dirInternal.dot(up));
+        g[3] = static_cast<float>(dirInternal.dot(front));
+    }
+};
+
+/* An arrival direction for a Dirac at time t: a cell of the tracer's directional record
+   drawn in proportion to its energy in t's 10 ms bin, then a uniform direction inside the
+   cell (uniform azimuth in the sector, uniform d.y in the band: equal area); isotropic
+   where the record holds nothing. Cells as in DirectionCell (propagation.h). */
+Vec3 DrawArrival(const ReceiverHistogram& hist, double t, pcg32& rng) {
+    const int coarse = static_cast<int>(t / kDirectionBinS);
+    int cell = -1;
+    const size_t base = static_cast<size_t>(coarse) * kDirectionCells;
+    if (coarse >= 0 && base + kDirectionCells <= hist.directionEnergy.size()) {
+        double sum = 0;
+        for (int c = 0; c < kDirectionCells; ++c) sum += std::max(0.0f, hist.directionEnergy[base + c]);
+        if (sum > 0) {
+            double u = Uniform(rng) * sum;
+            for (int c = 0; c < kDirectionCells; ++c) {
+                u -= std::max(0.0f, hist.directionEnergy[base + c]);
+                if (u < 0 || c == kDirectionCells - 1) {
+                    cell = c;
+                    break;
+                }
+            }
+        }
+    }
+    double phi, dy;
+    if (cell < 0) {
+        phi = -kPi + 2 * kPi * Uniform(rng);
+        dy = -1 + 2 * Uniform(rng);
+    } else {
+        phi = -kPi + (cell % 8 + Uniform(rng)) * (2 * kPi / 8);
+        dy = -1 + (cell / 8 + Uniform(rng)) * (2.0 / 8);
+    }
+    const double rxy = std::sqrt(std::max(0.0, 1 - dy * dy));
+    return Vec3(rxy * std::cos(phi), dy, rxy * std::sin(phi));  // atan2(z, x) = phi
+}
+
 void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int nOut,
-                 const BankGrid& grid, std::vector<float>& out) {
+                 const BankGrid& grid, const Encoder& enc, std::vector<std::vector<float>>& outs) {
+    const int channels = enc.channels;
     RealFft fft(grid.size);
     const std::vector<std::vector<float>>& bandMag = grid.mag;
     const Bands& eps = grid.eps;
@@ -267,17 +319,26 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
     }
     std::vector<float> eventSign(eventSample.size());
     for (float& s : eventSign) s = (rng() & 1u) ? 1.0f : -1.0f;
+    // Directions come from their own stream, so the omni channel equals the mono IR.
+    std::vector<std::array<float, 4>> eventGain(channels > 1 ? eventSample.size() : 0);
+    if (channels > 1) {
+        pcg32 dirRng = SequenceRng(ctx.seed ^ 0xD1EC7100ull, ctx.source, ctx.receiver);
+        for (size_t i = 0; i < eventSample.size(); ++i)
+            enc.Gains(DrawArrival(hist, eventSample[i] / fs, dirRng), eventGain[i].data());
+    }
 
     // First and last sample of each bin.
     auto binOfSample = [&](int n) { return std::min(binCount - 1, static_cast<int>(n / samplesPerBin)); };
 
-    std::vector<float> x(m), d(m);
+    std::vector<std::vector<float>> xs(channels, std::vector<float>(m)), ds(channels, std::vector<float>(m));
+    std::vector<float>& x = xs[0];
+    std::vector<float>& d = ds[0];
     std::vector<std::complex<float>> spectrum(nBins);
     std::vector<double> target(nOut), actual(nOut), targetS, actualS, tmp;
     for (int b = 0; b < kBandCount; ++b) {
         // Envelope shaping: each Dirac gets sqrt of the histogram energy interpolated
         // linearly between bin centres (smooth across bin edges, REFERENCES Part B 5.2).
-        std::fill(x.begin(), x.end(), 0.0f);
+        for (auto& xc : xs) std::fill(xc.begin(), xc.end(), 0.0f);
         auto envelope = [&](int n) {
             const double pos = n / samplesPerBin - 0.5;
             int k0 = static_cast<int>(std::floor(pos));
@@ -290,7 +351,9 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
         for (size_t i = 0; i < eventSample.size(); ++i) {
             const int n = eventSample[i];
             if (mean[binOfSample(n) * kBandCount + b] <= 0) continue;
-            x[n] += eventSign[i] * static_cast<float>(std::sqrt(envelope(n)));
+            const float amp = eventSign[i] * static_cast<float>(std::sqrt(envelope(n)));
+            x[n] += amp;
+            for (int c = 1; c < channels; ++c) xs[c][n] += amp * eventGain[i][c];
             any = true;
         }
         if (!any) continue;
@@ -302,12 +365,15 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
             for (int n = n0; n < n1; ++n) sum += static_cast<double>(x[n]) * x[n];
             const double want = mean[k * kBandCount + b];
             const float g = sum > 0 ? static_cast<float>(std::sqrt(want / sum)) : 0.0f;
-            for (int n = n0; n < n1; ++n) x[n] *= g;
+            for (auto& xc : xs)
+                for (int n = n0; n < n1; ++n) xc[n] *= g;
         }
         // Band filter (zero phase, FFT domain).
-        fft.Forward(x.data(), spectrum.data());
-        for (int i = 0; i < nBins; ++i) spectrum[i] *= bandMag[b][i];
-        fft.Inverse(spectrum.data(), d.data());
+        for (int c = 0; c < channels; ++c) {
+            fft.Forward(xs[c].data(), spectrum.data());
+            for (int i = 0; i < nBins; ++i) spectrum[i] *= bandMag[b][i];
+            fft.Inverse(spectrum.data(), ds[c].data());
+        }
 
         // Energy correction on the band's time scale L_b = 8/B (>= 2 ms): random-sign
         // overlap of neighbouring Dirac responses makes a band's energy fluctuate by about
@@ -340,14 +406,29 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
         // denominator), by a factor set by B L alone: one scalar per band restores the
         // band's total energy exactly.
         const double fix = achieved > 0 ? std::sqrt(wanted / achieved) : 1.0;
-        for (int n = 0; n < nOut; ++n) out[n] += static_cast<float>(fix * gain[n] * d[n]);
+        // The omni channel's gain serves every channel, so the channels stay coherent. A
+        // directional channel's own overlap terms are independent of the omni's (their
+        // products carry y_i y_j of either sign), so the gain raises its energy by the mean
+        // of g^2 (> 1): one scalar per channel and band restores its expected total.
+        for (int c = 0; c < channels; ++c) {
+            double fixC = fix;
+            if (c > 0) {
+                double want = 0, got = 0;
+                for (int n = 0; n < nOut; ++n) {
+                    want += eps[b] * static_cast<double>(xs[c][n]) * xs[c][n];
+                    got += gain[n] * gain[n] * static_cast<double>(ds[c][n]) * ds[c][n];
+                }
+                fixC = got > 0 ? std::sqrt(want / got) : 1.0;
+            }
+            for (int n = 0; n < nOut; ++n) outs[c][n] += static_cast<float>(fixC * gain[n] * ds[c][n]);
+        }
     }
 }
 
 /* The specular part: per band a train of windowed-sinc pulses at the exact delays, band
    filtered by the same bank and summed; added into `out`. */
 void AddSpecularPart(const ReceiverPaths& paths, const SynthesisContext& ctx, int nOut,
-                     std::vector<float>& out) {
+                     const Encoder& enc, int channel, std::vector<float>& out) {
     if (paths.paths.empty()) return;
     const double fs = ctx.sampleRate;
     // The paths usually end long before the IR does: an FFT grid just long enough for the
@@ -376,8 +457,10 @@ void AddSpecularPart(const ReceiverPaths& paths, const SynthesisContext& ctx, in
             const long j = n0 - kFractionalDelayHalfTaps + 1 + i;
             taps[i] = FractionalDelayTap(static_cast<double>(j) - pos, i0Beta);
         }
+        float g[4];
+        enc.Gains(p.arrivalFrom, g);
         for (int b = 0; b < kBandCount; ++b) {
-            const double amp = std::sqrt(p.energy[b]);
+            const double amp = std::sqrt(p.energy[b]) * g[channel];
             if (amp == 0) continue;
             any = true;
             for (int i = 0; i < kTaps; ++i) {
@@ -417,9 +500,14 @@ double SynthesisBandMagnitude(int band, double frequencyHz) {
     return mag;
 }
 
-ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
-                           const SynthesisContext& context, Diagnostics& diag) {
+namespace {
+
+ImpulseResponse SynthesizeEncoded(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
+                                  const SynthesisContext& context, const Encoder& enc,
+                                  Diagnostics& diag) {
     ImpulseResponse ir;
+    ir.channels = enc.channels;
+    ir.layout = enc.channels == 1 ? "mono" : "ambix-acn-sn3d";
     ir.sampleRate = context.sampleRate;
     ir.referenceEnergy = GReferenceEnergy();
     if (!Validate(specular, tracer, context, diag)) return ir;
@@ -440,11 +528,45 @@ ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogra
     const std::shared_ptr<const BankGrid> grid = BankGridFor(FastRealFftSize(nOut + 2 * pad), context.sampleRate);
     ir.bandEnergyOfUnitDirac = grid->eps;
 
-    std::vector<float> out(nOut, 0.0f);
-    AddLatePart(tracer, context, nOut, *grid, out);
-    AddSpecularPart(specular, context, nOut, out);
-    ir.samples = std::move(out);
+    std::vector<std::vector<float>> outs(enc.channels, std::vector<float>(nOut, 0.0f));
+    AddLatePart(tracer, context, nOut, *grid, enc, outs);
+    for (int c = 0; c < enc.channels; ++c) AddSpecularPart(specular, context, nOut, enc, c, outs[c]);
+    if (enc.channels == 1) {
+        ir.samples = std::move(outs[0]);
+    } else {
+        ir.samples.resize(static_cast<size_t>(nOut) * enc.channels);
+        for (int n = 0; n < nOut; ++n)
+            for (int c = 0; c < enc.channels; ++c) ir.samples[static_cast<size_t>(n) * enc.channels + c] = outs[c][n];
+    }
     return ir;
+}
+
+}  // namespace
+
+ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
+                           const SynthesisContext& context, Diagnostics& diag) {
+    return SynthesizeEncoded(specular, tracer, context, Encoder{}, diag);
+}
+
+ImpulseResponse SynthesizeAmbix(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
+                                const SynthesisContext& context, const Vec3& facing,
+                                Diagnostics& diag) {
+    Encoder enc;
+    enc.channels = 4;
+    const Vec3 worldUp(0, 1, 0);
+    if (!facing.allFinite() || facing.norm() < 1e-9 || std::fabs(facing.normalized().dot(worldUp)) > 1 - 1e-9) {
+        diag.Error({"", 0, 0, "receiver " + std::to_string(context.receiver)},
+                   "the seat's facing must be a finite, non-vertical direction for an AmbiX head frame");
+        ImpulseResponse ir;
+        ir.channels = 4;
+        ir.layout = "ambix-acn-sn3d";
+        return ir;
+    }
+    // Head frame: front = facing, up = internal y made orthogonal to it, left = up x front.
+    enc.front = facing.normalized();
+    enc.up = (worldUp - worldUp.dot(enc.front) * enc.front).normalized();
+    enc.left = enc.up.cross(enc.front);
+    return SynthesizeEncoded(specular, tracer, context, enc, diag);
 }
 
 ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogram& tracer,

@@ -94,6 +94,17 @@ ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogra
 ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
                            const SynthesisContext& context);
 
+/* First-order Ambisonics IR, AmbiX (ACN order W, Y, Z, X; SN3D; Nachbar et al. 2011), in
+   the listener's head frame: front = `facing` (internal frame), up = internal +y made
+   orthogonal to it, left = up x front. Specular paths are encoded from their arrival
+   directions; each Dirac of the late part is encoded coherently into all four channels from
+   a direction drawn from the tracer's directional record for its 10 ms bin (isotropic where
+   the record is empty). W equals the mono IR of Synthesize sample for sample, so the same
+   referenceEnergy applies to W. */
+ImpulseResponse SynthesizeAmbix(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
+                                const SynthesisContext& context, const Vec3& facing,
+                                Diagnostics& diag);
+
 /* Called once per finished IR (source, receiver order of the inputs); may be called from
    several threads at once, so it must be thread-safe. */
 using ImpulseResponseSink = std::function<void(const ImpulseResponse&, int pairIndex)>;
