@@ -15,6 +15,7 @@
 #include <tbb/parallel_for.h>
 
 #include "response/fft.h"
+#include "response/synthesis_internal.h"
 
 namespace hallwright {
 
@@ -427,16 +428,29 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
 
 /* The specular part: per band a train of windowed-sinc pulses at the exact delays, band
    filtered by the same bank and summed; added into `out`. */
-void AddSpecularPart(const ReceiverPaths& paths, const SynthesisContext& ctx, int nOut,
-                     const Encoder& enc, int channel, std::vector<float>& out) {
+}  // namespace
+
+void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& ctx, int nOut,
+                           const PathKernel& kernelOf, std::vector<float>& out) {
     if (paths.paths.empty()) return;
     const double fs = ctx.sampleRate;
+    // Kernels first: their length and extra delays set the grid.
+    std::vector<std::vector<float>> kernels(paths.paths.size());
+    std::vector<double> delays(paths.paths.size());
+    double last = 0;
+    size_t longest = 1;
+    for (size_t i = 0; i < paths.paths.size(); ++i) {
+        double extra = 0;
+        kernelOf(paths.paths[i], kernels[i], extra);
+        delays[i] = paths.paths[i].delayS + extra;
+        last = std::max(last, delays[i]);
+        longest = std::max(longest, kernels[i].size());
+    }
     // The paths usually end long before the IR does: an FFT grid just long enough for the
     // last pulse plus the bank's ringing (kSpecularPadS each side) keeps this part cheap.
-    double last = 0;
-    for (const SpecularPath& p : paths.paths) last = std::max(last, p.delayS);
     const int pad = static_cast<int>(std::ceil(kSpecularPadS * fs));
-    const int span = std::min(nOut, static_cast<int>(std::ceil(last * fs)) + kFractionalDelayHalfTaps + 1);
+    const int span = std::min<long>(nOut, static_cast<long>(std::ceil(last * fs)) + kFractionalDelayHalfTaps +
+                                              static_cast<long>(longest) + 1);
     const std::shared_ptr<const BankGrid> grid = BankGridFor(FastRealFftSize(span + 2 * pad), ctx.sampleRate);
     const std::vector<std::vector<float>>& bandMag = grid->mag;
     RealFft fft(grid->size);
@@ -446,27 +460,32 @@ void AddSpecularPart(const ReceiverPaths& paths, const SynthesisContext& ctx, in
     constexpr int kTaps = 2 * kFractionalDelayHalfTaps;
 
     std::vector<std::vector<float>> train(kBandCount, std::vector<float>(m, 0.0f));
-    std::vector<double> taps(kTaps);
+    std::vector<double> taps(kTaps), pulse;
     bool any = false;
-    for (const SpecularPath& p : paths.paths) {
-        const double pos = p.delayS * fs;
+    for (size_t pi = 0; pi < paths.paths.size(); ++pi) {
+        const SpecularPath& p = paths.paths[pi];
+        const std::vector<float>& kernel = kernels[pi];
+        if (kernel.empty()) continue;
+        const double pos = delays[pi] * fs;
         if (pos >= nOut) continue;
         const long n0 = static_cast<long>(std::floor(pos));
-        // Taps j = n0 - K + 1 .. n0 + K, value sinc(j - pos) * Kaiser.
+        // Taps j = n0 - K + 1 .. n0 + K, value sinc(j - pos) * Kaiser, convolved with the
+        // path's kernel (a single gain, or an HRIR).
         for (int i = 0; i < kTaps; ++i) {
             const long j = n0 - kFractionalDelayHalfTaps + 1 + i;
             taps[i] = FractionalDelayTap(static_cast<double>(j) - pos, i0Beta);
         }
-        float g[4];
-        enc.Gains(p.arrivalFrom, g);
+        pulse.assign(kTaps + kernel.size() - 1, 0.0);
+        for (int i = 0; i < kTaps; ++i)
+            for (size_t k = 0; k < kernel.size(); ++k) pulse[i + k] += taps[i] * kernel[k];
         for (int b = 0; b < kBandCount; ++b) {
-            const double amp = std::sqrt(p.energy[b]) * g[channel];
+            const double amp = std::sqrt(p.energy[b]);
             if (amp == 0) continue;
             any = true;
-            for (int i = 0; i < kTaps; ++i) {
-                const long j = n0 - kFractionalDelayHalfTaps + 1 + i;
+            for (size_t i = 0; i < pulse.size(); ++i) {
+                const long j = n0 - kFractionalDelayHalfTaps + 1 + static_cast<long>(i);
                 if (j < 0 || j >= m) continue;
-                train[b][j] += static_cast<float>(amp * taps[i]);
+                train[b][j] += static_cast<float>(amp * pulse[i]);
             }
         }
     }
@@ -479,6 +498,20 @@ void AddSpecularPart(const ReceiverPaths& paths, const SynthesisContext& ctx, in
     std::vector<float> y(m);
     fft.Inverse(total.data(), y.data());
     for (int n = 0; n < nSpan; ++n) out[n] += y[n];
+}
+
+namespace {
+
+/* The specular part of one channel: each path's pulse scaled by its channel gain. */
+void AddSpecularPart(const ReceiverPaths& paths, const SynthesisContext& ctx, int nOut,
+                     const Encoder& enc, int channel, std::vector<float>& out) {
+    AddSpecularKernelPart(paths, ctx, nOut, [&](const SpecularPath& p, std::vector<float>& k, double& extra) {
+        float g[4];
+        enc.Gains(p.arrivalFrom, g);
+        extra = 0;
+        if (g[channel] == 0.0f) k.clear();
+        else k.assign(1, g[channel]);
+    }, out);
 }
 
 }  // namespace
@@ -504,7 +537,7 @@ namespace {
 
 ImpulseResponse SynthesizeEncoded(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
                                   const SynthesisContext& context, const Encoder& enc,
-                                  Diagnostics& diag) {
+                                  Diagnostics& diag, bool includeSpecular = true) {
     ImpulseResponse ir;
     ir.channels = enc.channels;
     ir.layout = enc.channels == 1 ? "mono" : "ambix-acn-sn3d";
@@ -530,7 +563,8 @@ ImpulseResponse SynthesizeEncoded(const ReceiverPaths& specular, const ReceiverH
 
     std::vector<std::vector<float>> outs(enc.channels, std::vector<float>(nOut, 0.0f));
     AddLatePart(tracer, context, nOut, *grid, enc, outs);
-    for (int c = 0; c < enc.channels; ++c) AddSpecularPart(specular, context, nOut, enc, c, outs[c]);
+    if (includeSpecular)
+        for (int c = 0; c < enc.channels; ++c) AddSpecularPart(specular, context, nOut, enc, c, outs[c]);
     if (enc.channels == 1) {
         ir.samples = std::move(outs[0]);
     } else {
@@ -548,9 +582,9 @@ ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogra
     return SynthesizeEncoded(specular, tracer, context, Encoder{}, diag);
 }
 
-ImpulseResponse SynthesizeAmbix(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
-                                const SynthesisContext& context, const Vec3& facing,
-                                Diagnostics& diag) {
+ImpulseResponse SynthesizeAmbixPart(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
+                                    const SynthesisContext& context, const Vec3& facing,
+                                    bool includeSpecular, Diagnostics& diag) {
     Encoder enc;
     enc.channels = 4;
     const Vec3 worldUp(0, 1, 0);
@@ -566,7 +600,13 @@ ImpulseResponse SynthesizeAmbix(const ReceiverPaths& specular, const ReceiverHis
     enc.front = facing.normalized();
     enc.up = (worldUp - worldUp.dot(enc.front) * enc.front).normalized();
     enc.left = enc.up.cross(enc.front);
-    return SynthesizeEncoded(specular, tracer, context, enc, diag);
+    return SynthesizeEncoded(specular, tracer, context, enc, diag, includeSpecular);
+}
+
+ImpulseResponse SynthesizeAmbix(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
+                                const SynthesisContext& context, const Vec3& facing,
+                                Diagnostics& diag) {
+    return SynthesizeAmbixPart(specular, tracer, context, facing, true, diag);
 }
 
 ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
