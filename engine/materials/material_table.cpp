@@ -12,6 +12,7 @@
 // CLI can note that those bands rest on an assumption, not on data.
 #include <algorithm>
 #include <array>
+#include <cstdio>
 #include <map>
 
 #include "hallwright/material.h"
@@ -266,10 +267,16 @@ MaterialTable ParseMaterialTable(const std::string& text, const std::string& pat
                     continue;
                 }
                 if (*v < 0 || *v > 1) {
-                    std::string hint = *v > 1 && *v <= 100
-                                           ? "; coefficients are fractions: write " + std::to_string(*v / 100).substr(0, 5) +
-                                                 " for " + cell.text + " %, and cap measured ISO 354 values above 1 at 1"
-                                           : "; coefficients must lie within [0, 1]";
+                    // ISO 354 values slightly above 1 are an edge effect of the test; larger
+                    // ones are usually percentages.
+                    std::string hint = "; coefficients must lie within [0, 1]";
+                    if (*v > 1 && *v <= 1.5) {
+                        hint = "; measured ISO 354 values can exceed 1 (edge effect): cap them at 1";
+                    } else if (*v > 1.5 && *v <= 100) {
+                        char buf[64];
+                        std::snprintf(buf, sizeof buf, "%g", *v / 100);
+                        hint = "; coefficients are fractions: write " + std::string(buf) + " for " + cell.text + " %";
+                    }
                     diag.Error(at, what + " is " + cell.text + ", outside [0, 1]" + hint);
                     rowOk = false;
                     continue;

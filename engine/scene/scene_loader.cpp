@@ -604,9 +604,9 @@ bool LoadMeshAndMaterials(SceneFile& file, Diagnostics& diag) {
     for (const auto& t : tables)
         for (const auto& m : t.materials) known.push_back(m.name);
     for (const auto& m : BuiltinMaterials().materials) known.push_back(m.name);
-    std::vector<std::string> searched;
-    for (const auto& t : tables) searched.push_back(fs::path(t.path).filename().string());
-    searched.push_back("the built-in library");
+    std::string searched;  // "a.csv, b.csv or the built-in library"
+    for (const auto& t : tables) searched += (searched.empty() ? "" : ", ") + fs::path(t.path).filename().string();
+    searched += (searched.empty() ? "" : " or ") + std::string("the built-in library");
 
     auto lookup = [&](const std::string& name) -> const Material* {
         for (const auto& t : tables)
@@ -622,10 +622,10 @@ bool LoadMeshAndMaterials(SceneFile& file, Diagnostics& diag) {
             if (it != assign.end()) {
                 SourceLoc assignAt = it->second->at;
                 diag.Error(assignAt, "[materials.assign] maps '" + usemtl + "' to '" + target +
-                                         "', which is not in " + text::JoinList(searched) +
+                                         "', which is not in " + searched +
                                          text::DidYouMean(target, known) + "; add it to a table or fix the name");
             } else {
-                diag.Error(at, what + " '" + usemtl + "' is not defined in " + text::JoinList(searched) +
+                diag.Error(at, what + " '" + usemtl + "' is not defined in " + searched +
                                    text::DidYouMean(usemtl, known) +
                                    "; add a row with that name to a materials table, or map it in [materials.assign]");
             }

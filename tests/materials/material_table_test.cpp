@@ -100,7 +100,8 @@ TEST(MaterialTable, RejectsCoefficientsOutsideZeroToOne) {
                        "hall.csv", diag);
     EXPECT_TRUE(HasError(diag, "hall.csv", 2, "absorption at 1 kHz of 'x' (a1k) is 1.3, outside [0, 1]"));
     EXPECT_TRUE(HasError(diag, "hall.csv", 2, "scattering at 500 Hz of 'x' (s500) is -0.1, outside [0, 1]"));
-    EXPECT_TRUE(HasError(diag, "hall.csv", 3, "write 0.450 for 45 %"));
+    EXPECT_TRUE(HasError(diag, "hall.csv", 3, "write 0.45 for 45 %"));
+    EXPECT_TRUE(HasError(diag, "hall.csv", 2, "1.3, outside [0, 1]; measured ISO 354 values can exceed 1"));
 }
 
 TEST(MaterialTable, RejectsHeaderWithoutRequiredBands) {
