@@ -133,6 +133,8 @@ void RefineToTargets(const hallwright::Room& room, int s, const hwcli::SimulateO
                      hallwright::TracerResult& traced, std::vector<hallwright::SeatResult>& seats,
                      hwcli::RunRecord& record, Progress& progress, const std::string& label) {
     std::vector<int64_t> raysOf(seats.size(), traceOptions.rays);
+    // Every round scores the same spheres (the automatic radius depends on the ray count).
+    traceOptions.receiverRadiusM = traced.receiverRadiusM;
     int64_t total = traceOptions.rays;
     for (int round = 1;; ++round) {
         std::vector<int> pending;
@@ -156,6 +158,7 @@ void RefineToTargets(const hallwright::Room& room, int s, const hwcli::SimulateO
         traceOptions.seed = traceOptions.seed * 6364136223846793005ULL + 1442695040888963407ULL;  // next stream set
         hallwright::Diagnostics roundDiag;
         auto more = hallwright::TraceSource(room, s, traceOptions, roundDiag);
+        if (more.cancelled) break;
         if (roundDiag.HasErrors()) {
             record.Fail(roundDiag);
             break;
@@ -244,15 +247,16 @@ int Run(const Options& opt) {
         traceOptions.seed = scene.settings.seed;
         traceOptions.imageOrder = scene.settings.imageOrder;
         traceOptions.durationS = scene.settings.durationS;
+        traceOptions.cancel = &gInterrupted;
         auto traced = hallwright::TraceSource(*room, s, traceOptions, runDiag);
         traceS += Seconds(tStage);
-        record.AddSource(s, traced, imageStats);
         diag.Append(runDiag);
         if (runDiag.HasErrors()) {
             record.Fail(runDiag);
             break;
         }
-        if (gInterrupted) break;
+        if (gInterrupted || traced.cancelled) break;
+        record.AddSource(s, traced, imageStats);
 
         // Parameters for every seat; with --target-ci, more rays where intervals are too wide.
         tStage = Clock::now();

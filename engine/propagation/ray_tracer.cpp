@@ -721,7 +721,9 @@ TracerResult TraceSource(const Room& room, int source, const TracerOptions& opti
         8,
         tbb::make_filter<void, int64_t>(tbb::filter_mode::serial_in_order,
                                         [&](tbb::flow_control& fc) -> int64_t {
-                                            if (nextChunk >= chunkCount) {
+                                            if (nextChunk >= chunkCount ||
+                                                (options.cancel && options.cancel->load())) {
+                                                if (nextChunk < chunkCount) result.cancelled = true;
                                                 fc.stop();
                                                 return 0;
                                             }

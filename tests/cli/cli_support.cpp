@@ -1,6 +1,7 @@
 #include "cli/cli_support.h"
 
 #include <sys/wait.h>
+#include <unistd.h>
 
 #include <cstdio>
 #include <filesystem>
@@ -13,7 +14,8 @@ namespace hallwright::test {
 
 CommandResult RunHallwright(const std::string& args) {
     static int counter = 0;
-    const std::string dir = TempDir("cli-run-" + std::to_string(counter++));
+    // ctest runs each test in its own process: the pid keeps their scratch folders apart.
+    const std::string dir = TempDir("cli-run-" + std::to_string(getpid()) + "-" + std::to_string(counter++));
     const std::string outPath = dir + "/stdout", errPath = dir + "/stderr";
     const std::string cmd = "cd '" + std::string(HW_SOURCE_DIR) + "' && '" + std::string(HW_BINARY_DIR) +
                             "/hallwright' " + args + " >'" + outPath + "' 2>'" + errPath + "'";

@@ -120,7 +120,7 @@ TEST(SimulateCommand, InterruptLeavesNoPartialFile) {
     if (pid == 0) {
         freopen("/dev/null", "w", stderr);
         freopen("/dev/null", "w", stdout);
-        execl(bin.c_str(), bin.c_str(), "simulate", scene.c_str(), "--out", out.c_str(), "--rays", "400000",
+        execl(bin.c_str(), bin.c_str(), "simulate", scene.c_str(), "--out", out.c_str(), "--rays", "4000000",
               "--quiet", static_cast<char*>(nullptr));
         _exit(127);
     }

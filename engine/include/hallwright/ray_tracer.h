@@ -22,6 +22,7 @@
 // sound and purely specular paths up to imageOrder come from the image sources. No diffuse
 // rain and no Russian roulette: every ray is followed to the duration, so the bookkeeping
 // emitted = absorbed + air + escaped + remaining holds per band to rounding.
+#include <atomic>
 #include <cstdint>
 #include <optional>
 #include <vector>
@@ -52,6 +53,9 @@ struct TracerOptions {
     ReflectionSampling sampling = ReflectionSampling::kBandSplit;
     std::vector<int> receivers;      // receiver indices to score; empty = all of the room's
     bool keepEscapedRays = true;     // store up to kMaxEscapedRecords escaped rays
+    /* When set and it becomes true, no further chunk starts; the result is then marked
+       `cancelled` and must be discarded (used by the CLI for Ctrl-C). */
+    const std::atomic<bool>* cancel = nullptr;
 };
 
 /* One ray that left the model: where it left (last surface point) and its direction. */
@@ -69,6 +73,7 @@ struct TracerResult {
     /* Energy bookkeeping per band, double, summed in a fixed order (units: source energy). */
     Bands emitted = Bands::Zero(), absorbed = Bands::Zero(), air = Bands::Zero(),
           escaped = Bands::Zero(), remaining = Bands::Zero();
+    bool cancelled = false;    // stopped early through TracerOptions::cancel: incomplete
     int64_t rays = 0;          // primary rays
     int64_t subRays = 0;       // primary rays plus the sub-rays created by band splitting
     int64_t segments = 0;      // ray casts that ended on a surface, the duration or escaped
