@@ -131,7 +131,7 @@ svg text{font-family:inherit}
 .outline{fill:#e9e6de;stroke:none}
 .wall{stroke:#4a5261;stroke-width:1.6;stroke-linecap:round}
 .zone{fill:none;stroke:#39414f;stroke-width:1;stroke-dasharray:4 3}
-.zlabel{font-size:11px;fill:#39414f;font-weight:600}
+.zlabel{font-size:11px;fill:#39414f;font-weight:600;paint-order:stroke;stroke:#fff;stroke-width:3px;stroke-linejoin:round}
 .seat{stroke:#1c2330;stroke-width:.4}
 .seat:hover,.sseat:hover{stroke:#000;stroke-width:1.6}
 .src{fill:#fff;stroke:var(--accent);stroke-width:2}

@@ -23,6 +23,8 @@ namespace {
 
 std::string E(std::string_view s) { return HtmlEscape(s); }
 std::string N(double v, int d = 2) { return Fixed(v, d); }
+/* " ± ci" in small type, or nothing when the interval is unknown. */
+std::string Pm(double ci, int d) { return std::isfinite(ci) ? " <small>± " + Fixed(ci, d) + "</small>" : ""; }
 
 /* A value rounded to 6 significant digits (what the page shows and stores in data-value). */
 double Round6(double v) { return std::strtod(FormatNumber(v, 6).c_str(), nullptr); }
@@ -155,8 +157,11 @@ std::string Kpis(const ReportInput& in) {
 }
 
 /* Controls shared by the plan and the section. */
-std::string Controls(const ReportInput& in) {
+std::string Controls(const ReportInput& in, bool levels) {
     std::string c = "<div class=\"controls\">";
+    if (levels)
+        c += "<label for=\"sel-level\">Level</label><select id=\"sel-level\"><option value=\"0\">main floor</option>"
+             "<option value=\"1\">upper level</option><option value=\"all\">all levels</option></select>";
     c += "<label for=\"sel-source\">Source</label><select id=\"sel-source\">";
     for (size_t s = 0; s < in.sources.size(); ++s)
         c += "<option value=\"" + std::to_string(s) + "\">" + E(in.sources[s]) + "</option>";
@@ -202,10 +207,12 @@ std::string PlanSection(const ReportInput& in) {
     const bool haveDomain = Domain(in, 0, "C80", 0, lo, hi);
     const auto& ramp = SequentialRamp();
 
+    bool hasUpper = false;
+    for (const auto& seat : in.seats) hasUpper = hasUpper || seat.upperLevel;
     std::string s = "<section class=\"card\" id=\"map\"><h2>Seat map</h2><p class=\"note\">Plan seen from above; "
                     "one mark per seat, coloured from low (dark blue) to high (amber) over the range found in "
                     "the hall. Grey: no value at that seat. Hover a seat for its value and interval.</p>\n";
-    s += Controls(in);
+    s += Controls(in, hasUpper);
     s += "<div class=\"mapgrid\"><div>";
     s += "<svg id=\"plan\" viewBox=\"0 0 " + N(view.width, 1) + " " + N(view.height + 24, 1) + "\" width=\"" +
          N(view.width, 0) + "\" role=\"img\" aria-label=\"plan of the seats\">";
@@ -218,12 +225,18 @@ std::string PlanSection(const ReportInput& in) {
         s += "<line class=\"wall\" x1=\"" + N(view.X(w[0][0]), 1) + "\" y1=\"" + N(view.Y(w[0][1]), 1) + "\" x2=\"" +
              N(view.X(w[1][0]), 1) + "\" y2=\"" + N(view.Y(w[1][1]), 1) + "\"/>";
 
-    // Zone outlines: convex hull of the zone's seats, pushed out by half a seat spacing.
+    // Seats are drawn per level (main floor, upper level) so that a balcony does not hide the
+    // seats under it; a zone's outline goes with the level of most of its seats.
+    bool anyUpper = false;
+    for (const auto& seat : in.seats) anyUpper = anyUpper || seat.upperLevel;
+    std::vector<std::string> levelGroups(2);
     for (size_t z = 0; z < in.zones.size(); ++z) {
         std::vector<PlanPoint> pts;
+        int upper = 0;
         for (const auto& seat : in.seats)
-            if (seat.zone == in.zones[z]) pts.push_back({seat.u, seat.v});
+            if (seat.zone == in.zones[z]) pts.push_back({seat.u, seat.v}), upper += seat.upperLevel;
         if (pts.empty()) continue;
+        std::string& s = levelGroups[2 * upper > static_cast<int>(pts.size()) ? 1 : 0];
         auto hull = ConvexHull(pts);
         PlanPoint c{0, 0};
         for (const auto& p : hull) c[0] += p[0] / hull.size(), c[1] += p[1] / hull.size();
@@ -245,11 +258,14 @@ std::string PlanSection(const ReportInput& in) {
         const ReportValue* v = seat.Find(0, "C80", 0);
         const bool has = v && v->value;
         const std::string fill = has && haveDomain ? ramp[RampIndex(Round6(*v->value), lo, hi)] : kMissingFill;
+        std::string& s = levelGroups[seat.upperLevel ? 1 : 0];
         s += "<circle class=\"seat\" data-i=\"" + std::to_string(i) + "\" data-seat=\"" + E(seat.name) +
              "\" data-value=\"" + (has ? FormatNumber(Round6(*v->value), 6) : "") + "\" cx=\"" + N(view.X(seat.u), 1) +
              "\" cy=\"" + N(view.Y(seat.v), 1) + "\" r=\"" + N(r, 1) + "\" fill=\"" + fill + "\"><title>" +
              E(SeatTitle(seat, v, "C80")) + "</title></circle>";
     }
+    s += "<g class=\"level\" id=\"level-0\">" + levelGroups[0] + "</g><g class=\"level\" id=\"level-1\"" +
+         (anyUpper ? " style=\"display:none\"" : "") + ">" + levelGroups[1] + "</g>";
     for (const auto& [name, p] : g.sources)
         s += "<g><circle class=\"src\" cx=\"" + N(view.X(p[0]), 1) + "\" cy=\"" + N(view.Y(p[1]), 1) +
              "\" r=\"5\"/><text class=\"tick\" x=\"" + N(view.X(p[0]) + 8, 1) + "\" y=\"" + N(view.Y(p[1]) + 4, 1) +
@@ -346,8 +362,9 @@ std::string ZoneChart(const ReportInput& in, const std::string& p) {
             const std::string col = report::SeriesColours()[src % report::SeriesColours().size()];
             s += "<line x1=\"" + N(x, 1) + "\" x2=\"" + N(x, 1) + "\" y1=\"" + N(Y(st->min), 1) + "\" y2=\"" +
                  N(Y(st->max), 1) + "\" stroke=\"" + col + "\" stroke-opacity=\".35\" stroke-width=\"2\"/>";
-            s += "<line x1=\"" + N(x, 1) + "\" x2=\"" + N(x, 1) + "\" y1=\"" + N(Y(st->mean - st->ci95), 1) +
-                 "\" y2=\"" + N(Y(st->mean + st->ci95), 1) + "\" stroke=\"" + col + "\" stroke-width=\"5\"/>";
+            if (std::isfinite(st->ci95))
+                s += "<line x1=\"" + N(x, 1) + "\" x2=\"" + N(x, 1) + "\" y1=\"" + N(Y(st->mean - st->ci95), 1) +
+                     "\" y2=\"" + N(Y(st->mean + st->ci95), 1) + "\" stroke=\"" + col + "\" stroke-width=\"5\"/>";
             s += "<circle cx=\"" + N(x, 1) + "\" cy=\"" + N(Y(st->mean), 1) + "\" r=\"3.5\" fill=\"#fff\" stroke=\"" +
                  col + "\" stroke-width=\"2\"><title>" +
                  E(ZoneText(st->zone) + ", " + in.sources[src] + ": " + Fixed(st->mean, ParameterDigits(p) + 1) +
@@ -385,8 +402,7 @@ std::string ZonesSection(const ReportInput& in) {
             for (const auto& p : kReportParameters) {
                 const ReportZoneStat* st = FindStat(in, static_cast<int>(src), zone, p, 0);
                 if (st) n = std::max(n, st->nSeats);
-                cells += "<td>" + (st ? E(Fixed(st->mean, ParameterDigits(p))) + " <small>± " +
-                                            E(Fixed(st->ci95, ParameterDigits(p) + 1)) + "</small>"
+                cells += "<td>" + (st ? E(Fixed(st->mean, ParameterDigits(p))) + Pm(st->ci95, ParameterDigits(p) + 1)
                                       : std::string("&ndash;")) +
                          "</td>";
             }
@@ -407,8 +423,7 @@ std::string ZonesSection(const ReportInput& in) {
                      "</td><td class=\"l\">" + E(p) + "</td>";
                 for (int hz : in.reportedBandsHz) {
                     const ReportZoneStat* st = FindStat(in, static_cast<int>(src), zone, p, hz);
-                    s += "<td>" + (st ? E(Fixed(st->mean, ParameterDigits(p))) + " <small>± " +
-                                            E(Fixed(st->ci95, ParameterDigits(p) + 1)) + "</small>"
+                    s += "<td>" + (st ? E(Fixed(st->mean, ParameterDigits(p))) + Pm(st->ci95, ParameterDigits(p) + 1)
                                       : std::string("&ndash;")) +
                          "</td>";
                 }
@@ -426,7 +441,7 @@ std::string DifferenceRow(const ReportInput& in, const ReportZoneDifference& d) 
            E(ZoneText(d.zoneA)) + "</td><td class=\"l\">" + E(ZoneText(d.zoneB)) + "</td><td class=\"l\">" +
            E(d.parameter) + (d.band ? " " + std::to_string(d.band) + " Hz" : "") + "</td><td>" + E(Fixed(d.meanA, dg)) +
            "</td><td>" + E(Fixed(d.meanB, dg)) + "</td><td>" + E(Fixed(d.difference, dg + 1)) + UnitSuffix(d.parameter) +
-           "</td><td><b>" + E(Fixed(d.differenceJnd, 1)) + "</b></td><td>± " + E(Fixed(d.ci95Jnd, 1)) + "</td></tr>";
+           "</td><td><b>" + E(Fixed(d.differenceJnd, 1)) + "</b></td><td>" + (std::isfinite(d.ci95Jnd) ? "± " + Fixed(d.ci95Jnd, 1) : "") + "</td></tr>";
 }
 
 std::string DifferencesSection(const ReportInput& in) {
@@ -437,14 +452,15 @@ std::string DifferencesSection(const ReportInput& in) {
                     "Differences of the zone means in just-noticeable differences (JND, ISO 3382-1 Annex A; EDT "
                     "and T30 relative, 5 %). A difference of more than one JND is one a listener can usually "
                     "notice; each such difference of a single-number value gets a sentence below.</p>";
-    std::string sentences, rows, bandRows;
+    std::string rows, bandRows;
+    std::vector<std::string> sentences(std::max<size_t>(1, in.sources.size()));
     int nBig = 0;
     for (const auto& d : in.zoneDifferences) {
         if (d.band == 0) {
             rows += DifferenceRow(in, d);
             const std::string sentence = DifferenceSentence(d);
             if (!sentence.empty()) {
-                sentences += "<li>" + E(sentence) + "</li>";
+                sentences[std::clamp<size_t>(d.source, 0, sentences.size() - 1)] += "<li>" + E(sentence) + "</li>";
                 ++nBig;
             }
         } else if (std::abs(d.differenceJnd) > 1.0) {
@@ -452,8 +468,16 @@ std::string DifferencesSection(const ReportInput& in) {
         }
     }
     s += "<h3>What a listener would notice</h3>";
-    s += nBig ? "<ul class=\"sent\" id=\"sentences\">" + sentences + "</ul>"
-              : "<p id=\"sentences\">No single-number value differs by more than one JND between zones.</p>";
+    if (nBig == 0) s += "<p id=\"sentences\">No single-number value differs by more than one JND between zones.</p>";
+    else {
+        s += "<div id=\"sentences\">";
+        for (size_t src = 0; src < sentences.size(); ++src) {
+            if (sentences[src].empty()) continue;
+            if (in.sources.size() > 1) s += "<p class=\"note\">Sound from " + E(in.sources[src]) + ":</p>";
+            s += "<ul class=\"sent\">" + sentences[src] + "</ul>";
+        }
+        s += "</div>";
+    }
     s += "<div class=\"tablewrap\"><table id=\"difference-table\">" + head + rows + "</table></div>";
     s += "<details><summary>Octave-band differences larger than one JND</summary><div class=\"tablewrap\"><table>" +
          head + bandRows + "</table></div></details></section>\n";
@@ -462,10 +486,10 @@ std::string DifferencesSection(const ReportInput& in) {
 
 /* A line chart of dB against time for the bands of one seat. */
 std::string CurveChart(const SeatCurves& c, bool etc, double tEnd) {
-    const double W = 420, H = 230, L = 44, R = 10, T = 14, B = 34, dbMin = -60;
+    const double W = 420, H = 236, L = 44, R = 10, T = 24, B = 34, dbMin = -60;
     auto X = [&](double t) { return L + t / tEnd * (W - L - R); };
     auto Y = [&](double db) { return T + (0 - std::max(db, dbMin)) / (0 - dbMin) * (H - T - B); };
-    std::string s = "<svg viewBox=\"0 0 420 230\" role=\"img\" class=\"" + std::string(etc ? "etc" : "decay") + "\">";
+    std::string s = "<svg viewBox=\"0 0 420 236\" role=\"img\" class=\"" + std::string(etc ? "etc" : "decay") + "\">";
     for (double db = 0; db >= dbMin; db -= 10)
         s += "<line class=\"grid\" x1=\"" + N(L) + "\" x2=\"" + N(W - R) + "\" y1=\"" + N(Y(db), 1) + "\" y2=\"" +
              N(Y(db), 1) + "\"/><text class=\"tick\" x=\"" + N(L - 4) + "\" y=\"" + N(Y(db) + 4, 1) +
@@ -490,8 +514,11 @@ std::string CurveChart(const SeatCurves& c, bool etc, double tEnd) {
             size_t j = k;
             const double colEnd = c.timeS[k] + perPx;
             while (j < n && c.timeS[j] < colEnd) peak = std::max(peak, y[j]), ++j;
-            if (!etc) peak = y[k];
-            path += std::string(path.empty() ? "M" : "L") + N(X(c.timeS[k]), 1) + " " + N(Y(peak), 1);
+            if (!etc) {
+                path += std::string(path.empty() ? "M" : "L") + N(X(c.timeS[k]), 1) + " " + N(Y(y[k]), 1);
+            } else if (peak > dbMin) {  // the ETC as stems from the floor of the chart
+                path += "M" + N(X(c.timeS[k]), 1) + " " + N(Y(dbMin), 1) + "V" + N(Y(peak), 1);
+            }
             k = std::max(j, k + 1);
         }
         s += "<path d=\"" + path + "\" fill=\"none\" stroke=\"" +
@@ -580,8 +607,9 @@ std::string ReverbSection(const ReportInput& in) {
             if (!st) continue;
             const double x = X(i) + (z - (in.zones.size() - 1) / 2.0) * 6;
             path += std::string(path.empty() ? "M" : "L") + N(x, 1) + " " + N(Y(st->mean), 1);
-            s += "<line x1=\"" + N(x, 1) + "\" x2=\"" + N(x, 1) + "\" y1=\"" + N(Y(st->mean - st->ci95), 1) +
-                 "\" y2=\"" + N(Y(st->mean + st->ci95), 1) + "\" stroke=\"" + col + "\" stroke-width=\"3\"/>";
+            if (std::isfinite(st->ci95))
+                s += "<line x1=\"" + N(x, 1) + "\" x2=\"" + N(x, 1) + "\" y1=\"" + N(Y(st->mean - st->ci95), 1) +
+                     "\" y2=\"" + N(Y(st->mean + st->ci95), 1) + "\" stroke=\"" + col + "\" stroke-width=\"3\"/>";
             s += "<circle cx=\"" + N(x, 1) + "\" cy=\"" + N(Y(st->mean), 1) + "\" r=\"3\" fill=\"" + col + "\"/>";
         }
         if (!path.empty()) s += "<path d=\"" + path + "\" fill=\"none\" stroke=\"" + col + "\" stroke-width=\"1.5\"/>";
@@ -600,7 +628,7 @@ std::string ReverbSection(const ReportInput& in) {
              (in.room ? Fixed(eyr(hz), 2) : "") + "</td>";
         for (const auto& z : in.zones) {
             const ReportZoneStat* st = FindStat(in, 0, z, "T30", hz);
-            s += "<td>" + (st ? Fixed(st->mean, 2) + " <small>± " + Fixed(st->ci95, 2) + "</small>" : "&ndash;") + "</td>";
+            s += "<td>" + (st ? Fixed(st->mean, 2) + Pm(st->ci95, 2) : "&ndash;") + "</td>";
         }
         s += "<td>" + (in.room ? Fixed(in.room->schroederHz[*BandIndexOfNominal(hz)], 0) : "") + "</td></tr>";
     }
@@ -818,6 +846,12 @@ const char* kScript = R"JS(
     c.addEventListener("mouseenter", function () { show(+c.getAttribute("data-i")); });
     c.addEventListener("click", function () { show(+c.getAttribute("data-i")); });
   });
+  var selL = document.getElementById("sel-level");
+  if (selL) selL.addEventListener("change", function () {
+    ["0", "1"].forEach(function (k) {
+      document.getElementById("level-" + k).style.display = selL.value === "all" || selL.value === k ? "" : "none";
+    });
+  });
   selP.addEventListener("change", function () { fillBands(param(selP.value), +selB.value); apply(); });
   selB.addEventListener("change", apply);
   selS.addEventListener("change", apply);
@@ -858,8 +892,9 @@ std::string DifferenceSentence(const ReportZoneDifference& d) {
     std::string s = "In " + ZoneText(d.zoneA) + ", " + p + (d.band ? " at " + std::to_string(d.band) + " Hz" : "") +
                     " is " + Fixed(std::abs(d.difference), dg) + (unit.empty() ? "" : " " + unit) + " " +
                     (up ? more : less) + " than in " + ZoneText(d.zoneB) + " (" + Fixed(std::abs(d.differenceJnd), 1) +
-                    " JND, 95 % interval ± " + Fixed(d.ci95Jnd, 1) + " JND): " + meaning + ".";
-    if (std::abs(d.differenceJnd) - d.ci95Jnd < 1.0)
+                    " JND" + (std::isfinite(d.ci95Jnd) ? ", 95 % interval ± " + Fixed(d.ci95Jnd, 1) + " JND" : ", no interval") +
+                    "): " + meaning + ".";
+    if (std::isfinite(d.ci95Jnd) && std::abs(d.differenceJnd) - d.ci95Jnd < 1.0)
         s += " The interval reaches below one JND, so more rays would be needed to be sure.";
     return s;
 }

@@ -35,16 +35,27 @@ PlanFrame FrameFor(const Scene& scene) {
     return f;
 }
 
-/* A seat is under an overhang when a surface lies above it with room space above that surface. */
+/* True when, walking from p along dir through the model, some stretch after the first surface
+   met is room space again: a surface above with room above it (an overhang), or with dir down,
+   a floor with room below it (an upper level). */
+bool RoomBeyondFirstSurface(const Geometry& geometry, const Vec3& p, const Vec3& dir) {
+    Vec3 from = p;
+    std::optional<double> previous;
+    for (int k = 0; k < 6; ++k) {
+        auto hit = geometry.Rays().Intersect(from, dir, 1e-6);
+        if (!hit) return false;
+        const Vec3 at = from + dir * hit->t;
+        if (previous && hit->t > 0.05 && geometry.Contains(from + dir * (0.5 * hit->t))) return true;
+        previous = hit->t;
+        from = at + dir * 1e-4;
+    }
+    return false;
+}
+
 std::vector<char> UnderOverhang(const Scene& scene, const Geometry& geometry) {
     std::vector<char> out(scene.receivers.size(), 0);
-    for (size_t i = 0; i < scene.receivers.size(); ++i) {
-        const Vec3& p = scene.receivers[i].position;
-        auto hit = geometry.Rays().Intersect(p, kUp, 1e-6);
-        if (!hit) continue;
-        const Vec3 above = p + kUp * (hit->t + 0.3);
-        if (above.y() < geometry.BoundsMax().y() && geometry.Contains(above)) out[i] = 1;
-    }
+    for (size_t i = 0; i < scene.receivers.size(); ++i)
+        out[i] = RoomBeyondFirstSurface(geometry, scene.receivers[i].position, kUp) ? 1 : 0;
     return out;
 }
 
@@ -181,6 +192,7 @@ ReportInput MakeReportInput(const Scene& scene, const Geometry& geometry, const 
         s.v = p[1];
         s.height = r.position.y();
         s.underOverhang = under[i] != 0;
+        s.upperLevel = RoomBeyondFirstSurface(geometry, r.position, -kUp);
         s.values.resize(nSources);
         s.directOccluded.assign(nSources, 0);
     }

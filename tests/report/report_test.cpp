@@ -120,9 +120,9 @@ TEST(ReportSentences, OnlyForDifferencesAboveOneJnd) {
         {0, "balcony", "stalls", "LF", 0, 0.04, 0.8, 0.1, 0.2, 0.16},     // below: none
     };
     const std::string html = RenderReport(in);
-    const size_t a = html.find("<ul class=\"sent\" id=\"sentences\">");
+    const size_t a = html.find("<div id=\"sentences\">");
     ASSERT_NE(a, std::string::npos);
-    const std::string list = html.substr(a, html.find("</ul>", a) - a);
+    const std::string list = html.substr(a, html.find("</div>", a) - a);
     size_t n = 0;
     for (size_t p = list.find("<li>"); p != std::string::npos; p = list.find("<li>", p + 1)) ++n;
     EXPECT_EQ(n, 2u);

@@ -36,6 +36,7 @@ struct ReportSeat {
     Vec3 model = Vec3::Zero();          // position in model units and axes (labels)
     double u = 0, v = 0, height = 0;    // plan coordinates and height (metres, internal frame)
     bool underOverhang = false;         // a surface above with room space above it
+    bool upperLevel = false;            // its floor has room space below (a balcony)
     /* Per source (index into ReportInput::sources): values and the occlusion flag. */
     std::vector<std::vector<ReportValue>> values;
     std::vector<char> directOccluded;
