@@ -436,8 +436,13 @@ ReceiverPaths ValidatePaths(const FaceTable& ft, const ImageTree& tree, const Ra
         p.faces.assign(faces.begin(), faces.begin() + k);
         out.paths.push_back(std::move(p));
     }
-    std::stable_sort(out.paths.begin(), out.paths.end(),
-                     [](const SpecularPath& a, const SpecularPath& b) { return a.delayS < b.delayS; });
+    // By delay; equal delays (symmetric rooms) by order and face sequence, so the order does not
+    // depend on how the tree was built.
+    std::sort(out.paths.begin(), out.paths.end(), [](const SpecularPath& a, const SpecularPath& b) {
+        if (a.delayS != b.delayS) return a.delayS < b.delayS;
+        if (a.order != b.order) return a.order < b.order;
+        return a.faces < b.faces;
+    });
     return out;
 }
 

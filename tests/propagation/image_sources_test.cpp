@@ -344,9 +344,24 @@ enum class Leg { kFree, kBlocked, kBorderline };
    sampled maximum is within 0.5 mm of the true one: more than 2 mm inside the solid means
    blocked, more than 2 mm clear of it free, anything else borderline (not asserted). */
 Leg ClassifyLeg(const Vec3& a, const Vec3& b) {
-    const int n = std::max(2, static_cast<int>((b - a).norm() / 1e-3));
+    // Only the part of the leg within 1 cm of the slab kX0 <= x <= kX1 can be inside or near
+    // the solid (elsewhere DepthInSolid <= -1 cm).
+    constexpr double kNear = 0.01;
+    double t0 = 0, t1 = 1;
+    const double dx = b.x() - a.x();
+    if (std::abs(dx) < 1e-12) {
+        if (a.x() < kWallX0 - kNear || a.x() > kWallX1 + kNear) return Leg::kFree;
+    } else {
+        double ta = (kWallX0 - kNear - a.x()) / dx, tb = (kWallX1 + kNear - a.x()) / dx;
+        if (ta > tb) std::swap(ta, tb);
+        t0 = std::max(0.0, ta);
+        t1 = std::min(1.0, tb);
+        if (t0 > t1) return Leg::kFree;
+    }
+    const Vec3 p0 = a + (b - a) * t0, p1 = a + (b - a) * t1;
+    const int n = std::max(2, static_cast<int>((p1 - p0).norm() / 1e-3));
     double deepest = -1e300;
-    for (int i = 0; i <= n; ++i) deepest = std::max(deepest, DepthInSolid(a + (b - a) * (double(i) / n)));
+    for (int i = 0; i <= n; ++i) deepest = std::max(deepest, DepthInSolid(p0 + (p1 - p0) * (double(i) / n)));
     if (deepest > 2e-3) return Leg::kBlocked;
     if (deepest < -2e-3) return Leg::kFree;
     return Leg::kBorderline;

@@ -56,7 +56,7 @@ struct ImageSourceOptions {
     bool completeAdjacent = true;     // accelerated: complete the tree by touching faces
     int64_t fullEnumerationLimit = 20000;  // accelerated: enumerate trees up to this size (0: never)
     bool airAbsorption = true;        // ISO 9613-1 air loss along each path
-    int64_t maxImages = 20000000;     // exhaustive: refuse image trees larger than this
+    int64_t maxImages = 5000000;      // exhaustive: refuse larger image trees (~40 bytes each)
 };
 
 /* Counts from one run (summed over receivers in a fixed order), for benchmarks and notes. */
