@@ -43,6 +43,7 @@ std::optional<double> JndBetween(const std::string& parameter, double a, double 
 
 RunComparison CompareRuns(const RunTables& a, const RunTables& b, const CompareOptions& options) {
     RunComparison out;
+    out.modelUp = a.modelUp;
     // Seat matching: by (source, name) first, then by position among the seats still free.
     std::map<std::pair<std::string, std::string>, const RunSeat*> byNameB;
     for (const auto& s : b.seats) byNameB[{s.source, s.receiver}] = &s;
@@ -226,15 +227,20 @@ std::string RenderCompareReport(const RunComparison& c, const std::string& nameA
         if (s.band == 0 && IsSingleNumber(s.parameter)) params.insert(s.parameter);
     Vec3 lo = Vec3::Constant(1e300), hi = Vec3::Constant(-1e300);
     for (const auto& s : c.seats) lo = lo.cwiseMin(s.position), hi = hi.cwiseMax(s.position);
-    int up = 1;
-    if (!c.seats.empty()) {
+    // Up axis from run.json, else the axis with the least spread of seat positions. Seen from
+    // above, x to the right and (x cross up) downward keep the plan unmirrored: y up -> (x, z),
+    // z up -> (x, -y).
+    int up = c.modelUp == "z" ? 2 : 1;
+    if (c.modelUp.empty() && !c.seats.empty()) {
         const Vec3 spread = hi - lo;
         spread.minCoeff(&up);
     }
     const int ax = up == 0 ? 1 : 0, ay = up == 2 ? 1 : 2;
+    const double sy = up == 2 ? -1.0 : 1.0;
+    if (sy < 0) std::swap(lo[ay], hi[ay]), lo[ay] = -lo[ay], hi[ay] = -hi[ay];
     h += "<section class=\"card\" id=\"map\"><h2>Map of the change</h2><p class=\"note\">Each seat coloured by the "
          "change B − A in JNDs (blue: lower in B, amber: higher in B, scale clipped at ±3 JND). Plan axes: model "
-         "axes " + std::string(1, "xyz"[ax]) + " (right) and " + std::string(1, "xyz"[ay]) +
+         "axes " + std::string(1, "xyz"[ax]) + " (right) and " + (sy < 0 ? "−" : "") + std::string(1, "xyz"[ay]) +
          " (down).</p><div class=\"controls\"><label for=\"sel-param\">Parameter</label><select id=\"sel-param\">";
     for (const auto& p : params) h += "<option value=\"" + HtmlEscape(p) + "\">" + HtmlEscape(p) + "</option>";
     h += "</select></div>";
@@ -258,7 +264,7 @@ std::string RenderCompareReport(const RunComparison& c, const std::string& nameA
             if (s.source == c.seats.front().source)
                 marks += "<circle class=\"seat\" data-i=\"" + std::to_string(it->second) + "\" data-seat=\"" +
                          HtmlEscape(s.receiver) + "\" cx=\"" + Fixed(M + (s.position[ax] - ox) * sx, 1) + "\" cy=\"" +
-                         Fixed(M + (s.position[ay] - oy) * sx, 1) + "\" r=\"4\" fill=\"#b9bcc2\"><title>" +
+                         Fixed(M + (sy * s.position[ay] - oy) * sx, 1) + "\" r=\"4\" fill=\"#b9bcc2\"><title>" +
                          HtmlEscape(s.receiver) + "</title></circle>";
         }
         seats[it->second]["d"][s.parameter] = {s.differenceJnd, std::isfinite(s.ci95Jnd) ? nlohmann::json(s.ci95Jnd)

@@ -114,7 +114,7 @@ std::optional<RunTables> ReadRun(const std::string& dir, Diagnostics& diag) {
     run.dir = dir;
     const int errorsBefore = diag.ErrorCount();
 
-    // Model units from run.json when the run recorded them (positions in seats.csv use them).
+    // Model units and up axis from run.json (mesh.units, mesh.up): seats.csv positions use them.
     {
         std::ifstream in(dir + "/run.json", std::ios::binary);
         if (in) {
@@ -123,10 +123,11 @@ std::optional<RunTables> ReadRun(const std::string& dir, Diagnostics& diag) {
             const auto j = nlohmann::json::parse(ss.str(), nullptr, false);
             std::string units;
             if (j.is_object()) {
-                if (j.contains("model_units") && j["model_units"].is_string()) units = j["model_units"];
-                else if (j.contains("scene") && j["scene"].is_object() && j["scene"].contains("units") &&
-                         j["scene"]["units"].is_string())
-                    units = j["scene"]["units"];
+                if (j.contains("mesh") && j["mesh"].is_object()) {
+                    const auto& m = j["mesh"];
+                    if (m.contains("units") && m["units"].is_string()) units = m["units"];
+                    if (m.contains("up") && m["up"].is_string()) run.modelUp = m["up"];
+                }
             }
             if (!units.empty()) {
                 try {

@@ -3,6 +3,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <filesystem>
 #include <fstream>
 #include <sstream>
 
@@ -171,6 +172,67 @@ TEST(CompareCommand, WritesCsvAndHtmlAndReportsErrors) {
     auto help = test::RunHallwright("compare --help");
     EXPECT_EQ(help.exitCode, 0);
     EXPECT_NE(help.out.find("Example:"), std::string::npos);
+}
+
+}  // namespace
+}  // namespace hallwright
+
+namespace hallwright {
+namespace {
+
+std::string ReadAll(const std::string& path) {
+    std::ifstream in(path);
+    std::stringstream ss;
+    ss << in.rdbuf();
+    return ss.str();
+}
+
+/* Two runs of the shoebox that differ only in the wall material (alpha 0.1 against 0.3):
+   compare finds the seat by name, and T30 falls by many JNDs, in the direction Eyring's
+   formula gives (Eyring 1930: T falls from 3.2 s to about 1.0 s at 1 kHz; REFERENCES Part A 2). */
+TEST(CompareCommand, TwoScenesThatDifferByOneMaterial) {
+    namespace fs = std::filesystem;
+    const std::string base = test::TempDir("compare-material");
+    for (const char* option : {"a", "b"}) {
+        const fs::path dir = fs::path(base) / (std::string("scene-") + option);
+        fs::create_directories(dir);
+        for (const char* f : {"scene.toml", "room.obj"})
+            fs::copy_file(test::SourcePath(std::string("scenes/shoebox/") + f), dir / f);
+        std::string materials = ReadAll(test::SourcePath("scenes/shoebox/materials.csv"));
+        if (std::string(option) == "b") {
+            // The same material name with alpha 0.3 in every band.
+            const size_t row = materials.find("\nuniform_a10,");
+            ASSERT_NE(row, std::string::npos);
+            materials.replace(row + 1, std::string("uniform_a10,0.1,0.1,0.1,0.1,0.1,0.1").size(),
+                              "uniform_a10,0.3,0.3,0.3,0.3,0.3,0.3");
+            materials.replace(materials.find(",0.1,0.1,0,0,,,,", row), std::string(",0.1,0.1,0,0,,,,").size(),
+                              ",0.3,0.3,0,0,,,,");
+        }
+        test::WriteFile(dir.string(), "materials.csv", materials);
+        auto r = test::RunHallwright("simulate '" + (dir / "scene.toml").string() + "' --out '" + base + "/run-" +
+                                     option + "' --rays 4000 --no-wav --quiet");
+        ASSERT_EQ(r.exitCode, 0) << r.err;
+    }
+    auto r = test::RunHallwright("compare '" + base + "/run-a' '" + base + "/run-b' --out '" + base + "/cmp'");
+    ASSERT_EQ(r.exitCode, 0) << r.err;
+    EXPECT_NE(r.out.find("1 seats matched by name"), std::string::npos) << r.out;
+    Diagnostics diag;
+    auto a = ReadRun(base + "/run-a", diag), b = ReadRun(base + "/run-b", diag);
+    ASSERT_TRUE(a && b) << diag.ToString();
+    EXPECT_EQ(a->modelUp, "z");
+    const RunComparison c = CompareRuns(*a, *b, CompareOptions{});
+    const SeatChange* t30 = FindSeat(c, "R", "T30_M");
+    ASSERT_NE(t30, nullptr);
+    EXPECT_LT(t30->b, 0.6 * t30->a);          // Eyring: 1.0 s against 3.2 s
+    EXPECT_LT(t30->differenceJnd, -10.0);     // far more than one JND (5 % relative)
+    const SeatChange* c80 = FindSeat(c, "R", "C80_M");
+    ASSERT_NE(c80, nullptr);
+    EXPECT_GT(c80->difference, 0.0);          // less reverberant: clearer
+    const std::string csv = ReadAll(base + "/cmp/compare.csv");
+    EXPECT_NE(csv.find("\nS,R,room,T30_M,avg,"), std::string::npos);
+    const std::string html = ReadAll(base + "/cmp/compare.html");
+    EXPECT_NE(html.find("In room (source S), option B changes"), std::string::npos);
+    EXPECT_EQ(html.find("https://"), std::string::npos);
 }
 
 }  // namespace

@@ -29,7 +29,8 @@ struct RunTables {
     std::string dir;
     std::vector<RunParameter> parameters;
     std::vector<RunSeat> seats;
-    double metresPerUnit = 1.0;  // from run.json "model_units" when present, else metres
+    double metresPerUnit = 1.0;  // from run.json mesh.units when present, else metres
+    std::string modelUp;         // from run.json mesh.up ("y" or "z"), "" when unknown
 };
 
 /* Reads DIR/parameters.csv and DIR/seats.csv; errors name file:line and the fix. */
@@ -57,6 +58,7 @@ struct RunComparison {
     std::vector<ZoneChange> zones;
     std::vector<std::string> unmatchedA, unmatchedB;  // "source/receiver"
     int matchedByName = 0, matchedByPosition = 0;
+    std::string modelUp;  // run A's up axis, for the map ("" = guessed from the seats)
 };
 
 struct CompareOptions {
