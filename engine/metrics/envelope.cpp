@@ -22,6 +22,8 @@ EnvelopeIntegrator::EnvelopeIntegrator(const EnergyEnvelope& env) : env_(env) {
         binPrefix_[k + 1] = binPrefix_[k] + env.bins[k];
         binMomentPrefix_[k + 1] = binMomentPrefix_[k] + env.bins[k] * mid;
     }
+    binSuffix_.assign(n + 1, 0.0);
+    for (size_t k = n; k-- > 0;) binSuffix_[k] = binSuffix_[k + 1] + env.bins[k];
     impulses_ = env.impulses;
     std::stable_sort(impulses_.begin(), impulses_.end(),
                      [](const TimedEnergy& a, const TimedEnergy& b) { return a.timeS < b.timeS; });
@@ -100,6 +102,23 @@ double EnvelopeIntegrator::MomentBefore(double t) const {
     return m + TailMomentBefore(t);
 }
 
+double EnvelopeIntegrator::EnergyDirect(double a, double b) const {
+    double e = 0;
+    const size_t n = env_.bins.size();
+    if (n > 0 && b > a) {
+        const double w = env_.binWidthS;
+        const double pa = std::max(0.0, (a - env_.binStartS) / w), pb = (b - env_.binStartS) / w;
+        const size_t ka = static_cast<size_t>(pa);
+        for (size_t k = ka; k < n && static_cast<double>(k) < pb; ++k) {
+            const double lo = std::max(BinFraction(k, a), 0.0), hi = BinFraction(k, b);
+            if (hi > lo) e += (hi - lo) * env_.bins[k];
+        }
+    }
+    for (const TimedEnergy& p : impulses_)
+        if (p.timeS >= a && p.timeS < b) e += p.energy;
+    return e + (TailEnergyBefore(b) - TailEnergyBefore(a));
+}
+
 double EnvelopeIntegrator::EnergyAfter(double t) const {
     // Summed from the parts after t (not Total - Before) to keep deep decays accurate.
     double e = 0;
@@ -107,10 +126,10 @@ double EnvelopeIntegrator::EnergyAfter(double t) const {
     if (n > 0) {
         const double pos = (t - env_.binStartS) / env_.binWidthS;
         if (pos <= 0) {
-            e += binPrefix_[n];
+            e += binSuffix_[0];
         } else if (pos < static_cast<double>(n)) {
             const size_t k = static_cast<size_t>(pos);
-            e += (binPrefix_[n] - binPrefix_[k + 1]) + (1.0 - BinFraction(k, t)) * env_.bins[k];
+            e += binSuffix_[k + 1] + (1.0 - BinFraction(k, t)) * env_.bins[k];
         }
     }
     auto it = std::lower_bound(impulses_.begin(), impulses_.end(), t,
@@ -230,7 +249,7 @@ bool FitTail(EnergyEnvelope& env, double t0, double endS) {
     std::vector<double> centre, level;
     for (int i = count - 1; i >= 0; --i) {
         const double b = endS - (count - 1 - i) * w, a = b - w;
-        const double e = in.Energy(a, b) / w;
+        const double e = in.EnergyDirect(a, b) / w;
         centre.push_back(0.5 * (a + b));
         level.push_back(e > 0 ? 10.0 * std::log10(e) : -std::numeric_limits<double>::infinity());
     }

@@ -19,6 +19,8 @@ class EnvelopeIntegrator {
     double TotalMoment() const { return totalMoment_; }
     /* Energy in [a, b). */
     double Energy(double a, double b) const { return EnergyBefore(b) - EnergyBefore(a); }
+    /* Energy in [a, b) summed bin by bin (no prefix differences: silent stretches give 0). */
+    double EnergyDirect(double a, double b) const;
     /* Energy from t to the end, including the tail (the Schroeder integral). */
     double EnergyAfter(double t) const;
     /* Integral of e(t) e^{-j w t} dt over the whole envelope. */
@@ -28,6 +30,7 @@ class EnvelopeIntegrator {
   private:
     const EnergyEnvelope& env_;
     std::vector<double> binPrefix_, binMomentPrefix_;  // n + 1 entries
+    std::vector<double> binSuffix_;                    // sum from k to the end (exact zeros stay 0)
     std::vector<TimedEnergy> impulses_;                // sorted by time
     std::vector<double> impPrefix_, impMomentPrefix_;
     double total_ = 0, totalMoment_ = 0;

@@ -7,6 +7,7 @@
 
 #include "hallwright/diagnostics.h"
 #include "hallwright/metrics.h"
+#include "hallwright/octave_filter.h"
 #include "hallwright/sti.h"
 #include "metrics/parameter_rows.h"
 
@@ -45,6 +46,61 @@ double FindTimeZero(const ReceiverPaths& paths, const ReceiverHistogram& hist, b
         }
     }
     return std::isfinite(t0) ? t0 : 0.0;
+}
+
+/* Cumulative energy response of the WAV path's octave filter (octave_filter.h) to a Dirac,
+   at 48 kHz, normalised to 1: a specular arrival is seen through the same analysis filter as
+   in a measured or synthesized IR, so its band energy is spread over the filter's ringing
+   (a few ms at 1 kHz, about 20 ms at 125 Hz) and delayed by its group delay. Without this
+   the histogram path would see each path as an instant step, and EDT and Ts of seats with a
+   strong direct sound would depend on the time grid instead of matching the WAV path. */
+constexpr int kKernelRate = 48000;
+const std::vector<double>& CumulativeKernel(int band) {
+    static const std::array<std::vector<double>, kBandCount> kernels = [] {
+        std::array<std::vector<double>, kBandCount> out;
+        for (int b = 0; b < kBandCount; ++b) {
+            auto f = OctaveFilter::Design(b, kKernelRate);
+            std::vector<double> d(kKernelRate / 2, 0.0);
+            d[0] = 1.0;
+            const std::vector<double> h = f->Apply(d);
+            double total = 0;
+            for (double v : h) total += v * v;
+            std::vector<double>& c = out[b];
+            double acc = 0;
+            for (double v : h) {
+                acc += v * v / total;
+                c.push_back(acc);
+                if (acc >= 1.0 - 1e-9) break;
+            }
+            c.back() = 1.0;
+        }
+        return out;
+    }();
+    return kernels[band];
+}
+
+/* Adds energy e arriving at time t, spread by the band's kernel, to bins of width w starting
+   at `start`; false (nothing added) when the spread would leave the bins. */
+bool AddThroughFilter(std::vector<double>& bins, double start, double w, double t, double e, int band) {
+    const std::vector<double>& c = CumulativeKernel(band);
+    const double span = static_cast<double>(c.size()) / kKernelRate;
+    if (t < start || t + span > start + w * bins.size()) return false;
+    auto cum = [&](double x) {  // kernel energy arriving before t + x
+        if (x <= 0) return 0.0;
+        const size_t n = static_cast<size_t>(x * kKernelRate);
+        return n >= c.size() ? 1.0 : (n == 0 ? 0.0 : c[n - 1]);
+    };
+    // Each bin edge is evaluated once, so every kernel sample lands in exactly one bin.
+    const size_t first = static_cast<size_t>((t - start) / w);
+    double prev = cum(start + first * w - t);
+    for (size_t k = first; k < bins.size(); ++k) {
+        const double b = start + (k + 1) * w - t;
+        const double next = cum(b);
+        bins[k] += e * (next - prev);
+        prev = next;
+        if (b >= span) break;
+    }
+    return true;
 }
 
 std::string Fmt(const char* fmt, double v) {
@@ -114,15 +170,19 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
                 if (w == 0) continue;
                 for (int k = 0; k < binCount; ++k) omni.bins[k] += w * hist.Energy(b, k, band);
             }
-            for (const SpecularPath& p : paths.paths) omni.impulses.push_back({p.delayS, p.energy[band]});
+            int last = binCount;  // end of the tracer's energy (before the specular part)
+            while (last > 0 && omni.bins[last - 1] == 0) --last;
+            for (const SpecularPath& p : paths.paths)
+                if (!AddThroughFilter(omni.bins, 0.0, kBinWidthS, p.delayS, p.energy[band], band))
+                    omni.impulses.push_back({p.delayS, p.energy[band]});
             // The record ends where the tracer's energy ends (rays that all died before the
             // histogram's end leave zeros, which are not a decay): tail and the dynamic-range
             // rule are read there.
-            int last = binCount;
-            while (last > 0 && omni.bins[last - 1] == 0) --last;
             double recordEnd = last * kBinWidthS;
             for (const SpecularPath& p : paths.paths)
-                if (p.energy[band] > 0) recordEnd = std::max(recordEnd, std::min(endS, p.delayS + kBinWidthS));
+                if (p.energy[band] > 0)
+                    recordEnd = std::max(recordEnd, std::min(endS, p.delayS + kBinWidthS +
+                                         double(CumulativeKernel(band).size()) / kKernelRate));
             if (last == 0 || recordEnd <= t0) recordEnd = endS;  // purely specular: defined throughout
             omni.bins.resize(static_cast<size_t>(std::lround(std::ceil(recordEnd / kBinWidthS - 1e-9))));
             FitTail(omni, t0, recordEnd);
@@ -130,7 +190,7 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
             in.omni = &omni;
             in.timeZeroS = t0;
             in.endS = recordEnd;
-            in.gridS = kBinWidthS;
+            in.gridS = 0.0005;  // the WAV path's decay-curve grid (wav_metrics.h)
             in.referenceEnergy = kReferenceEnergy10m;
             if (lateralAxis && haveLateralRecord) {
                 for (EnergyEnvelope* e : {&sq, &ab}) {
@@ -150,8 +210,11 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
                 }
                 for (const SpecularPath& p : paths.paths) {
                     const double c = p.arrivalFrom.dot(*lateralAxis);
-                    sq.impulses.push_back({p.delayS, p.energy[band] * c * c});
-                    ab.impulses.push_back({p.delayS, p.energy[band] * std::fabs(c)});
+                    const double esq = p.energy[band] * c * c, eab = p.energy[band] * std::fabs(c);
+                    if (!AddThroughFilter(sq.bins, sq.binStartS, sq.binWidthS, p.delayS, esq, band))
+                        sq.impulses.push_back({p.delayS, esq});
+                    if (!AddThroughFilter(ab.bins, ab.binStartS, ab.binWidthS, p.delayS, eab, band))
+                        ab.impulses.push_back({p.delayS, eab});
                 }
                 in.lateralSq = &sq;
                 in.lateralAbs = &ab;
