@@ -14,6 +14,11 @@
 //   delays and count on the side of the limit they fall on (an impulse exactly at a limit
 //   counts as later, intervals are [a, b)). No energy arrives before t0: the bin holding t0
 //   spreads its energy over [t0, bin end) only.
+// - Histogram path: each specular arrival (exact delay) is seen through the WAV path's
+//   octave filter (octave_filter.h): its band energy is spread over that filter's energy
+//   response |h_b(t)|^2 into the 1 ms bins, as a measured or synthesized IR would be analysed.
+//   Energies (G, C, D, LF) are unchanged by this; EDT and Ts of seats with a strong direct
+//   sound then agree with the WAV path instead of depending on the time grid.
 // - Decay curves: Schroeder backward integration (1965) with an exponential tail
 //   compensation beyond the end of the record (Lundeby et al. 1995); T from a least-squares
 //   line on L(t) over 0..-10 dB (EDT), -5..-25 dB (T20), -5..-35 dB (T30) (ISO 3382-1/-2).
