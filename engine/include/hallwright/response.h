@@ -34,6 +34,7 @@
 // tens of ms of emission.
 #include <cstdint>
 #include <functional>
+#include <memory>
 #include <string>
 #include <vector>
 
@@ -104,6 +105,39 @@ ImpulseResponse Synthesize(const ReceiverPaths& specular, const ReceiverHistogra
 ImpulseResponse SynthesizeAmbix(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
                                 const SynthesisContext& context, const Vec3& facing,
                                 Diagnostics& diag);
+
+/* Default HRTF set (Debian's libmysofa installs MIT KEMAR, normal pinna). */
+constexpr const char* kDefaultHrtfPath = "/usr/share/libmysofa/default.sofa";
+
+/* An HRTF set read with libmysofa, resampled to one sample rate (AES69 SOFA,
+   SimpleFreeFieldHRIR). Lookups are thread-safe (serialised). */
+class HrtfSet {
+  public:
+    /* Opens and resamples a SOFA file; nothing and an error naming the file on failure. */
+    static std::unique_ptr<HrtfSet> Open(const std::string& path, int sampleRate, Diagnostics& diag);
+    ~HrtfSet();
+    HrtfSet(const HrtfSet&) = delete;
+    HrtfSet& operator=(const HrtfSet&) = delete;
+    int FilterLength() const;
+    /* HRIR pair (left, right) for a head-frame direction (x front, y left, z up, as SOFA and
+       AmbiX) with the set's broadband delays in seconds (libmysofa interpolates). */
+    void Filter(const Vec3& headDir, std::vector<float>& left, std::vector<float>& right,
+                double& delayLeftS, double& delayRightS) const;
+
+  private:
+    HrtfSet();
+    struct Impl;
+    std::unique_ptr<Impl> impl_;
+};
+
+/* Two-channel (left, right) binaural IR in the head frame of `facing` (as SynthesizeAmbix):
+   each specular path through the HRIR pair of its direction at its exact delay plus the
+   set's delay; the late part synthesized as AmbiX and decoded to eight virtual sources
+   (cube corners, basic decoder), each convolved with its HRIR pair (16 FFT convolutions).
+   The level follows libmysofa's normalised set, so G is not defined on binaural files. */
+ImpulseResponse SynthesizeBinaural(const ReceiverPaths& specular, const ReceiverHistogram& tracer,
+                                   const SynthesisContext& context, const Vec3& facing,
+                                   const HrtfSet& hrtf, Diagnostics& diag);
 
 /* Called once per finished IR (source, receiver order of the inputs); may be called from
    several threads at once, so it must be thread-safe. */
