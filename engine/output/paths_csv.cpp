@@ -4,6 +4,7 @@
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <system_error>
 
 #include <unistd.h>
@@ -88,6 +89,19 @@ bool WritePathsCsv(const std::string& dir, const Scene& scene, const Geometry& g
         diag.Error(SourceLoc{folder.string(), 0, 0, ""},
                    "cannot create the folder: " + ec.message() + " (is the output directory writable?)");
         return false;
+    }
+    // Two seats whose names differ only in replaced characters would overwrite each other.
+    std::map<std::string, int> owner;
+    for (const ReceiverPaths& rp : receiverPaths) {
+        if (rp.receiver < 0 || rp.receiver >= static_cast<int>(scene.receivers.size())) continue;
+        auto [it, inserted] = owner.emplace(PathsCsvFileName(scene, sourceIndex, rp.receiver), rp.receiver);
+        if (!inserted && it->second != rp.receiver) {
+            diag.Error(scene.receivers[rp.receiver].definedAt,
+                       "receivers \"" + scene.receivers[it->second].name + "\" and \"" +
+                           scene.receivers[rp.receiver].name + "\" would both be written to paths/" + it->first +
+                           "; give them names that differ in letters or digits");
+            return false;
+        }
     }
     for (const ReceiverPaths& rp : receiverPaths) {
         if (rp.source != sourceIndex || rp.receiver < 0 || rp.receiver >= static_cast<int>(scene.receivers.size())) {

@@ -735,6 +735,19 @@ TEST(PathsCsv, WritesOneFilePerPairWithFullPrecision) {
     EXPECT_EQ(files, 1);
 }
 
+TEST(PathsCsv, NamesThatWouldShareAFileAreAnError) {
+    auto b = AllenBerkleyRoom(0.1, 0.0);
+    ASSERT_TRUE(b);
+    AddReceiver(b->room->scene, "row A/12", Vec3(10, 7, 2));
+    AddReceiver(b->room->scene, "row A 12", Vec3(11, 7, 2));
+    Diagnostics diag;
+    const auto res = ComputeImageSources(*b->room, 0, Options(1, true), diag);
+    const std::string dir = test::TempDir("paths_csv_clash");
+    EXPECT_FALSE(WritePathsCsv(dir, b->scene(), b->geometry(), 0, res, diag));
+    EXPECT_NE(diag.ToString().find("would both be written to paths/S__row_A_12.csv"), std::string::npos)
+        << diag.ToString();
+}
+
 // Directions are written in the model's axes: for a z-up model (x, y, z)_internal =
 // (x, z, -y)_model (scene.h), so the internal +y (up) is the model's +z.
 TEST(PathsCsv, DirectionsAreInModelAxes) {
