@@ -573,11 +573,11 @@ std::string ReverbSection(const ReportInput& in) {
     if (!(hi > 0)) hi = 1;
     const auto ticks = report::NiceTicks(0, hi * 1.1, 5);
     const double top = std::max(ticks.back(), hi * 1.05);
-    const double W = 680, H = 300, L = 50, R = 150, T = 16, B = 36;
+    const double W = 680, H = 310, L = 50, R = 150, T = 26, B = 36;
     const double slot = (W - L - R) / bands.size();
     auto X = [&](size_t i) { return L + slot * (i + 0.5); };
     auto Y = [&](double v) { return T + (top - v) / top * (H - T - B); };
-    s += "<svg id=\"rt-chart\" viewBox=\"0 0 680 300\" width=\"680\" role=\"img\">";
+    s += "<svg id=\"rt-chart\" viewBox=\"0 0 680 310\" width=\"680\" role=\"img\">";
     for (double t : ticks)
         s += "<line class=\"grid\" x1=\"" + N(L) + "\" x2=\"" + N(W - R) + "\" y1=\"" + N(Y(t), 1) + "\" y2=\"" +
              N(Y(t), 1) + "\"/><text class=\"tick\" x=\"" + N(L - 5) + "\" y=\"" + N(Y(t) + 4, 1) +
