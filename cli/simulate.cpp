@@ -68,6 +68,7 @@ void ComputeSeatTables(const hallwright::Scene& scene, int s, const std::vector<
         const int r = receivers[i];
         hallwright::HistogramMetricsOptions mo;
         mo.bands = scene.settings.reportedBands;
+        mo.perBatchValues = false;  // zone statistics use the delete-one-batch replicates only
         mo.sourceDirection = (scene.sources[s].position - scene.receivers[r].position).normalized();
         auto& seat = seats[r];
         seat.source = s;

@@ -5,6 +5,7 @@
 #include <cstdio>
 #include <limits>
 
+#include "hallwright/diagnostics.h"
 #include "hallwright/metrics.h"
 #include "hallwright/sti.h"
 #include "metrics/envelope_integrator.h"
@@ -166,6 +167,48 @@ std::complex<double> EnvelopeIntegrator::Fourier(double omega) const {
     if (env_.tailRate > 0 && env_.tailDecay > 0)
         sum += env_.tailRate * std::polar(1.0, -omega * env_.tailStartS) / C(env_.tailDecay, omega);
     return sum;
+}
+
+void EnvelopeIntegrator::FourierMany(const double* omega, int count, std::complex<double>* out) const {
+    constexpr int kMax = 32;
+    HW_CHECK(count <= kMax, "FourierMany takes at most 32 frequencies");
+    // Same sums as Fourier(), all frequencies advanced together: re/im in flat arrays.
+    double pr[kMax], pi[kMax], sr[kMax], si[kMax], ar[kMax] = {}, ai[kMax] = {};
+    const size_t n = env_.bins.size();
+    const double w = env_.binWidthS;
+    for (int f = 0; f < count; ++f) {
+        const double first = -omega[f] * (env_.binStartS + 0.5 * w), step = -omega[f] * w;
+        pr[f] = std::cos(first);
+        pi[f] = std::sin(first);
+        sr[f] = std::cos(step);
+        si[f] = std::sin(step);
+    }
+    for (size_t k = 0; k < n; ++k) {
+        const double e = env_.bins[k];
+        for (int f = 0; f < count; ++f) {
+            ar[f] += e * pr[f];
+            ai[f] += e * pi[f];
+            const double r = pr[f] * sr[f] - pi[f] * si[f];
+            pi[f] = pr[f] * si[f] + pi[f] * sr[f];
+            pr[f] = r;
+        }
+        if ((k & 1023) == 1023)
+            for (int f = 0; f < count; ++f) {  // keep the rotations unit length
+                const double m = std::hypot(pr[f], pi[f]);
+                pr[f] /= m;
+                pi[f] /= m;
+            }
+    }
+    using C = std::complex<double>;
+    for (int f = 0; f < count; ++f) {
+        const double half = 0.5 * omega[f] * w;
+        const double sinc = half == 0 ? 1.0 : std::sin(half) / half;
+        C sum = n > 0 ? sinc * C(ar[f], ai[f]) : C(0);
+        for (const TimedEnergy& p : impulses_) sum += p.energy * std::polar(1.0, -omega[f] * p.timeS);
+        if (env_.tailRate > 0 && env_.tailDecay > 0)
+            sum += env_.tailRate * std::polar(1.0, -omega[f] * env_.tailStartS) / C(env_.tailDecay, omega[f]);
+        out[f] = sum;
+    }
 }
 
 }  // namespace metrics_detail
@@ -339,8 +382,11 @@ BandParameters ComputeBandParameters(const BandInput& bi) {
     }
 
     // Modulation transfer (Schroeder 1981) over the whole response, for STI.
-    for (int f = 0; f < kModulationCount; ++f)
-        out.mtf[f] = std::abs(in.Fourier(2.0 * M_PI * kModulationHz[f])) / out.totalEnergy;
+    double omega[kModulationCount];
+    std::complex<double> spectrum[kModulationCount];
+    for (int f = 0; f < kModulationCount; ++f) omega[f] = 2.0 * M_PI * kModulationHz[f];
+    in.FourierMany(omega, kModulationCount, spectrum);
+    for (int f = 0; f < kModulationCount; ++f) out.mtf[f] = std::abs(spectrum[f]) / out.totalEnergy;
     return out;
 }
 

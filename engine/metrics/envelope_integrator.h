@@ -25,6 +25,9 @@ class EnvelopeIntegrator {
     double EnergyAfter(double t) const;
     /* Integral of e(t) e^{-j w t} dt over the whole envelope. */
     std::complex<double> Fourier(double omega) const;
+    /* Fourier at several angular frequencies in one pass over the bins (independent phase
+       rotations per frequency, so the loop is not latency-bound); out[i] = Fourier(omega[i]). */
+    void FourierMany(const double* omega, int count, std::complex<double>* out) const;
     const EnergyEnvelope& Envelope() const { return env_; }
 
   private:
