@@ -34,8 +34,17 @@ ZoneStatistic SummarizeZone(const std::vector<SeatEstimate>& seats) {
         if (s.value) batches = std::max(batches, s.replicates.size());
     z.replicateMeans.assign(batches, 0.0);
     double sum = 0, sumSq = 0;
+    // A seat whose parameter cannot be computed without one of the batches (a non-finite
+    // replicate, e.g. a decay at the edge of its dynamic range) is too unstable to average:
+    // it is left out of the zone, like a seat without a value.
+    auto usable = [&](const SeatEstimate& s) {
+        if (!s.value || !std::isfinite(*s.value) || s.replicates.size() != batches) return false;
+        for (double r : s.replicates)
+            if (!std::isfinite(r)) return false;
+        return true;
+    };
     for (const auto& s : seats) {
-        if (!s.value || s.replicates.size() != batches) continue;
+        if (!usable(s)) continue;
         const double v = *s.value;
         if (z.nSeats == 0) z.min = z.max = v;
         z.min = std::min(z.min, v);

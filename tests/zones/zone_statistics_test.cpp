@@ -51,6 +51,21 @@ TEST(ZoneStatistics, ZoneMeanAndIntervalByHand) {
     EXPECT_NEAR(z.ci95, 2.365 * std::sqrt(7.0 / 8.0 * 0.06), 1e-12);
 }
 
+// A seat with a non-finite replicate (its parameter failed in one batch) is left out, so the
+// zone interval stays defined; the statistics are those of the other seats.
+TEST(ZoneStatistics, SeatWithNonFiniteReplicateIsLeftOut) {
+    std::vector<SeatEstimate> seats(2);
+    seats[0].value = 1.0;
+    seats[0].replicates.assign(8, 1.0);
+    seats[1].value = 5.0;
+    seats[1].replicates.assign(8, 5.0);
+    seats[1].replicates[3] = std::nan("");
+    const ZoneStatistic z = SummarizeZone(seats);
+    EXPECT_EQ(z.nSeats, 1);
+    EXPECT_DOUBLE_EQ(z.mean, 1.0);
+    EXPECT_TRUE(std::isfinite(z.ci95));
+}
+
 // Differences in JNDs: absolute JND (C80: 1 dB, ISO 3382-1 Table A.1) and relative JND
 // (EDT: 5 % of the mean, same table).
 TEST(ZoneStatistics, DifferencesInAbsoluteAndRelativeJnds) {

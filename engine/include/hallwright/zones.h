@@ -40,7 +40,8 @@ double StudentT975(int dof);
 /* Jackknife standard error from B delete-one replicates: sqrt((B-1)/B sum (x_j - mean)^2). */
 double JackknifeStandardError(const std::vector<double>& replicates);
 
-/* Statistics of one zone's seats; nSeats = 0 when no seat has a value. */
+/* Statistics of one zone's seats; nSeats = 0 when no seat has a value. Seats with a missing
+   or non-finite value or replicate are left out (nSeats counts the seats used). */
 ZoneStatistic SummarizeZone(const std::vector<SeatEstimate>& seats);
 /* Difference of two zone statistics (with replicates), expressed in JNDs. */
 std::optional<ZoneDifference> CompareZones(const ZoneStatistic& a, const ZoneStatistic& b, const Jnd& jnd);
