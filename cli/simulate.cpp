@@ -101,6 +101,24 @@ std::vector<int> CurveSeats(const hallwright::Scene& scene) {
     return chosen;
 }
 
+/* Seats that get AmbiX and binaural files: two per zone, the one nearest the zone's centroid
+   and the one farthest from the first source (the zone's back). */
+std::vector<int> SpatialSeats(const hallwright::Scene& scene) {
+    std::vector<int> chosen = CurveSeats(scene);
+    const hallwright::Vec3 source = scene.sources[0].position;
+    for (size_t z = 0, n = chosen.size(); z < n; ++z) {
+        const std::string& zone = scene.receivers[chosen[z]].zone;
+        int far = -1;
+        for (int i = 0; i < static_cast<int>(scene.receivers.size()); ++i)
+            if (scene.receivers[i].zone == zone && i != chosen[z] &&
+                (far < 0 || (scene.receivers[i].position - source).norm() > (scene.receivers[far].position - source).norm()))
+                far = i;
+        if (far >= 0) chosen.push_back(far);
+    }
+    std::sort(chosen.begin(), chosen.end());
+    return chosen;
+}
+
 /* The row a --target-ci entry is checked on: the single number (EDT -> EDT_M), or STI. */
 const hallwright::ParameterValue* TargetRow(const hallwright::ParameterTable& table, const std::string& parameter) {
     if (const auto* v = table.Find(parameter + "_M", 0)) return v;
@@ -218,6 +236,14 @@ int Run(const Options& opt) {
     const auto reviewOptions = hallwright::ReviewOptionsFrom(scene);
     std::vector<hallwright::Finding> findings = hallwright::ReviewRoom(scene, room->geometry, reviewOptions);
     const std::vector<int> curveSeats = CurveSeats(scene);
+    const std::vector<int> spatialSeats = SpatialSeats(scene);
+    std::unique_ptr<hallwright::HrtfSet> hrtf;
+    if (!opt.noWav) {
+        hallwright::Diagnostics hrtfDiag;
+        hrtf = hallwright::HrtfSet::Open(hallwright::kDefaultHrtfPath, scene.settings.sampleRate, hrtfDiag);
+        for (const auto& d : hrtfDiag.Items())
+            diag.Warning(d.at, d.message + " — binaural files are skipped");
+    }
     std::vector<hallwright::SeatCurves> curves;
     double imageS = 0, traceS = 0, synthS = 0, metricsS = 0;
 
@@ -300,6 +326,10 @@ int Run(const Options& opt) {
             writer.WriteImpulseResponses(s, paths, traced.histograms, ctx, gInterrupted,
                                          opt.wavFormat == "pcm24" ? hallwright::WavFormat::kPcm24 : hallwright::WavFormat::kFloat32,
                                          record, diag);
+            writer.WriteSpatialImpulseResponses(s, paths, traced.histograms, spatialSeats, ctx, hrtf.get(),
+                                                opt.wavFormat == "pcm24" ? hallwright::WavFormat::kPcm24
+                                                                         : hallwright::WavFormat::kFloat32,
+                                                record, diag);
         }
         synthS += Seconds(tStage);
         if (gInterrupted) break;  // this source's WAVs are incomplete: leave it out of the tables

@@ -155,6 +155,51 @@ void OutputWriter::WriteRunJson(const SimulateOptions& options, const RunRecord&
 
 namespace hwcli {
 
+namespace {
+hallwright::IrFileInfo FileInfo(const hallwright::Scene& scene, int source, int receiver, uint64_t seed) {
+    const auto& src = scene.sources[source];
+    const auto& seat = scene.receivers[receiver];
+    hallwright::IrFileInfo info;
+    info.sourceName = src.name;
+    info.sourcePosition = scene.ToModel(src.position);
+    info.seatName = seat.name;
+    info.seatPosition = scene.ToModel(seat.position);
+    info.zone = seat.zone;
+    info.facing = scene.DirectionToModel(seat.facing);
+    info.sourceDirection = scene.DirectionToModel((src.position - seat.position).normalized());
+    info.frame = "model";
+    info.seed = seed;
+    return info;
+}
+}  // namespace
+
+void OutputWriter::WriteSpatialImpulseResponses(int source, const std::vector<hallwright::ReceiverPaths>& paths,
+                                                const std::vector<hallwright::ReceiverHistogram>& histograms,
+                                                const std::vector<int>& receivers,
+                                                const hallwright::SynthesisContext& context,
+                                                const hallwright::HrtfSet* hrtf, hallwright::WavFormat format,
+                                                RunRecord& record, hallwright::Diagnostics& diag) {
+    std::vector<hallwright::Diagnostics> perSeat(receivers.size());
+    std::atomic<int64_t> written{0};
+    tbb::parallel_for(size_t(0), receivers.size(), [&](size_t i) {
+        const int r = receivers[i];
+        hallwright::SynthesisContext ctx = context;
+        ctx.source = source;
+        ctx.receiver = r;
+        const auto info = FileInfo(scene_, source, r, ctx.seed);
+        auto ambix = hallwright::SynthesizeAmbix(paths[r], histograms[r], ctx, scene_.receivers[r].facing, perSeat[i]);
+        if (!perSeat[i].HasErrors() && hallwright::WriteImpulseResponseFiles(dir_, ambix, info, format, perSeat[i]))
+            ++written;
+        if (!hrtf) return;
+        auto binaural = hallwright::SynthesizeBinaural(paths[r], histograms[r], ctx, scene_.receivers[r].facing,
+                                                       *hrtf, perSeat[i]);
+        if (!perSeat[i].HasErrors() && hallwright::WriteImpulseResponseFiles(dir_, binaural, info, format, perSeat[i]))
+            ++written;
+    });
+    for (const auto& d : perSeat) diag.Append(d);
+    record.wavFiles += written.load();
+}
+
 void OutputWriter::WriteImpulseResponses(int source, const std::vector<hallwright::ReceiverPaths>& paths,
                                          const std::vector<hallwright::ReceiverHistogram>& histograms,
                                          const hallwright::SynthesisContext& context, const std::atomic<bool>& stop,
@@ -172,18 +217,7 @@ void OutputWriter::WriteImpulseResponses(int source, const std::vector<hallwrigh
         ctx.receiver = hist.receiver;
         auto ir = hallwright::Synthesize(paths[i], hist, ctx, perSeat[i]);
         if (perSeat[i].HasErrors()) return;
-        const auto& src = scene_.sources[source];
-        const auto& seat = scene_.receivers[hist.receiver];
-        hallwright::IrFileInfo info;
-        info.sourceName = src.name;
-        info.sourcePosition = scene_.ToModel(src.position);
-        info.seatName = seat.name;
-        info.seatPosition = scene_.ToModel(seat.position);
-        info.zone = seat.zone;
-        info.facing = scene_.DirectionToModel(seat.facing);
-        info.sourceDirection = scene_.DirectionToModel((src.position - seat.position).normalized());
-        info.frame = "model";
-        info.seed = ctx.seed;
+        const auto info = FileInfo(scene_, source, hist.receiver, ctx.seed);
         if (hallwright::WriteImpulseResponseFiles(dir_, ir, info, format, perSeat[i])) ++written;
     });
     for (const auto& d : perSeat) diag.Append(d);

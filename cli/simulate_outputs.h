@@ -64,6 +64,13 @@ class OutputWriter {
                                const std::vector<hallwright::ReceiverHistogram>& histograms,
                                const hallwright::SynthesisContext& context, const std::atomic<bool>& stop,
                                hallwright::WavFormat format, RunRecord& record, hallwright::Diagnostics& diag);
+    /* AmbiX and binaural IRs (with sidecars) for the chosen receivers; `hrtf` may be null
+       (binaural then skipped). */
+    void WriteSpatialImpulseResponses(int source, const std::vector<hallwright::ReceiverPaths>& paths,
+                                      const std::vector<hallwright::ReceiverHistogram>& histograms,
+                                      const std::vector<int>& receivers, const hallwright::SynthesisContext& context,
+                                      const hallwright::HrtfSet* hrtf, hallwright::WavFormat format, RunRecord& record,
+                                      hallwright::Diagnostics& diag);
     void WriteTables(const std::vector<hallwright::SeatResult>& seats, hallwright::Diagnostics& diag);
     void WriteRunJson(const SimulateOptions& options, const RunRecord& record, const nlohmann::ordered_json& timings,
                       hallwright::Diagnostics& diag);

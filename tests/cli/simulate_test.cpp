@@ -63,6 +63,13 @@ TEST(SimulateCommand, WritesTheDocumentedFilesAndColumns) {
         EXPECT_TRUE(fs::exists(out + "/ir/mono/src__" + std::string(seat) + ".wav")) << seat;
         EXPECT_TRUE(fs::exists(out + "/ir/mono/src__" + std::string(seat) + ".wav.json")) << seat;
     }
+    // Spatial files for two seats per zone (here every seat): AmbiX (4 channels) and binaural (2).
+    for (const auto& [dir, layout, channels] :
+         {std::tuple{"ambix", "ambix-acn-sn3d", 4}, std::tuple{"binaural", "binaural-lr", 2}}) {
+        auto sidecar = nlohmann::json::parse(Slurp(out + "/ir/" + dir + "/src__rear-b.wav.json"));
+        EXPECT_EQ(sidecar["channel_layout"].get<std::string>(), layout);
+        EXPECT_EQ(sidecar["channels"].get<int>(), channels);
+    }
     auto run = nlohmann::json::parse(Slurp(out + "/run.json"));
     for (const char* key : {"versions", "scene", "mesh", "settings", "seed", "sources", "calibration", "timings_s",
                             "warnings", "complete", "cautions"})
