@@ -4,8 +4,8 @@
 //
 // Decisions worth knowing (documented in the README's scene section):
 // - up = "z" is the rotation (x, y, z) -> (x, z, -y) (determinant +1), never an axis swap.
-// - units scale the mesh AND every length in the scene file (positions, spacing_m,
-//   ear_height_m): they are all read off the same CAD model.
+// - units scale the mesh AND the positions in the scene file (they are read off the same CAD
+//   model); keys ending in _m (spacing_m, ear_height_m) are in metres whatever the units.
 // - Faces before any `usemtl` take the material named "default" (through [materials.assign]
 //   like any name); if none is defined that is an error naming the first such face.
 #include <algorithm>
@@ -250,8 +250,6 @@ std::optional<SceneFile> ParseSceneToml(std::string_view text, const std::string
                 scene.modelUp = *u;
         }
     }
-    const double scale = UnitScale(scene.modelUnits);
-    const std::string unitNote = scene.modelUnits == "m" ? "" : " (model units: " + scene.modelUnits + ")";
 
     // [materials]
     if (const toml::table* mats = table("materials")) {
@@ -474,15 +472,15 @@ std::optional<SceneFile> ParseSceneToml(std::string_view text, const std::string
             r.Error(r.At(*surf), "surfaces must be a non-empty list of OBJ group names, e.g. [\"stalls_floor\"]");
             ok = false;
         }
-        // Lengths are in model units like everything read off the model; checked in metres.
+        // Keys ending in _m are metres, whatever the model units.
         if (auto v = r.Number(t, "spacing_m", where)) {
-            b.spacingM = *v * scale;
+            b.spacingM = *v;
             // A seat grid finer than 0.3 m is no seating plan; usually the units are wrong
             // (common practice, no source).
             if (!(b.spacingM >= 0.3 && b.spacingM <= 50)) {
                 std::ostringstream os;
-                os << "spacing_m in " << where << " is " << *v << unitNote << " = " << b.spacingM
-                   << " m; seat spacing must be 0.3..50 m (lengths in the scene file are in the model's units)";
+                os << "spacing_m in " << where << " is " << *v
+                   << " m; seat spacing must be 0.3..50 m (spacing_m is in metres, whatever the model units)";
                 r.Error(r.At(*t.get("spacing_m")), os.str());
                 ok = false;
             }
@@ -492,11 +490,11 @@ std::optional<SceneFile> ParseSceneToml(std::string_view text, const std::string
             b.spacingM = 1.0;  // documented default: 1 m, whatever the model units
         }
         if (auto v = r.Number(t, "ear_height_m", where)) {
-            b.earHeightM = *v * scale;
+            b.earHeightM = *v;
             if (!(b.earHeightM >= 0.1 && b.earHeightM <= 3.0)) {
                 std::ostringstream os;
-                os << "ear_height_m in " << where << " is " << *v << unitNote << " = " << b.earHeightM
-                   << " m; ears are 0.1..3 m above the seating surface (seated about 1.2 m)";
+                os << "ear_height_m in " << where << " is " << *v
+                   << " m; ears are 0.1..3 m above the seating surface (seated about 1.2 m; metres, whatever the model units)";
                 r.Error(r.At(*t.get("ear_height_m")), os.str());
                 ok = false;
             }

@@ -255,7 +255,7 @@ TEST(SceneLoader, MillimetreModelEqualsMetreModel) {
         "[model]\nmesh = \"box.obj\"\nunits = \"mm\"\n"
         "[[source]]\nname = \"S\"\nposition = [2000, 1500, 2000]\n"
         "[[receiver]]\nname = \"R\"\nposition = [6000, 1200, 8000]\n"
-        "[[seating]]\nsurfaces = [\"floor\"]\nspacing_m = 900\near_height_m = 1100\n";
+        "[[seating]]\nsurfaces = [\"floor\"]\nspacing_m = 0.9\near_height_m = 1.1\n";  // _m keys: metres
     const std::string m = kMinimal + "[[seating]]\nsurfaces = [\"floor\"]\nspacing_m = 0.9\near_height_m = 1.1\n";
     Diagnostics diag;
     auto a = LoadScene(WriteScene("units_m", m), diag);
@@ -276,12 +276,13 @@ TEST(SceneLoader, MillimetreModelEqualsMetreModel) {
     EXPECT_DOUBLE_EQ(ModelUnitScale("cm"), 0.01);
 }
 
+// spacing_m is metres whatever the model units: a value written in millimetres is refused.
 TEST(SceneLoader, SeatSpacingInTheWrongUnitsIsAnError) {
     Diagnostics diag;
     ParseSceneToml("[model]\nmesh = \"box.obj\"\nunits = \"mm\"\n[[source]]\nposition = [1, 1, 1]\n"
-                   "[[seating]]\nsurfaces = [\"floor\"]\nspacing_m = 0.9\n",
+                   "[[seating]]\nsurfaces = [\"floor\"]\nspacing_m = 900\n",
                    "hall.toml", diag);
-    EXPECT_TRUE(HasError(diag, "hall.toml", 8, "spacing_m in [[seating]] #1 is 0.9 (model units: mm) = 0.0009 m"));
+    EXPECT_TRUE(HasError(diag, "hall.toml", 8, "spacing_m in [[seating]] #1 is 900 m; seat spacing must be 0.3..50 m"));
 }
 
 // up = "z": the rotation (x, y, z) -> (x, z, -y). The model is the same box drawn z-up; the
