@@ -8,6 +8,7 @@
 #include <filesystem>
 #include <cmath>
 #include <map>
+#include <thread>
 #include <unistd.h>
 
 #include <nlohmann/json.hpp>
@@ -48,6 +49,31 @@ class Progress {
         const double t = std::chrono::duration<double>(Clock::now() - start_).count();
         std::fprintf(stderr, "\r\033[K[%6.1f s] %s", t, text.c_str());
         std::fflush(stderr);
+    }
+    /* While `work` runs, shows percent, items (`unit`) per second and time left from `done` of `total`. */
+    template <typename Work>
+    void Counted(const std::string& text, const char* unit, std::atomic<int64_t>& done, int64_t total, Work&& work) {
+        if (!show_) {
+            work();
+            return;
+        }
+        std::atomic<bool> finished{false};
+        const auto t0 = Clock::now();
+        std::thread ticker([&] {
+            while (!finished.load()) {
+                const int64_t n = std::min(done.load(), total);
+                const double dt = std::chrono::duration<double>(Clock::now() - t0).count();
+                const double rate = dt > 0 ? n / dt : 0;
+                char buf[160];
+                std::snprintf(buf, sizeof buf, ": %3.0f %%, %.0f %s/s, %.0f s left", 100.0 * n / std::max<int64_t>(total, 1),
+                              rate, unit, rate > 0 ? (total - n) / rate : 0.0);
+                Stage(text + buf);
+                std::this_thread::sleep_for(std::chrono::milliseconds(250));
+            }
+        });
+        work();
+        finished.store(true);
+        ticker.join();
     }
     void Done() {
         if (show_) std::fprintf(stderr, "\r\033[K");
@@ -275,7 +301,12 @@ int Run(const Options& opt) {
         traceOptions.imageOrder = scene.settings.imageOrder;
         traceOptions.durationS = scene.settings.durationS;
         traceOptions.cancel = &gInterrupted;
-        auto traced = hallwright::TraceSource(*room, s, traceOptions, runDiag);
+        std::atomic<int64_t> raysDone{0};
+        traceOptions.raysDone = &raysDone;
+        hallwright::TracerResult traced;
+        progress.Counted(label + ": ray tracing " + std::to_string(scene.settings.rays) + " rays", "rays", raysDone,
+                      scene.settings.rays, [&] { traced = hallwright::TraceSource(*room, s, traceOptions, runDiag); });
+        traceOptions.raysDone = nullptr;
         traceS += Seconds(tStage);
         diag.Append(runDiag);
         if (runDiag.HasErrors()) {
@@ -314,7 +345,6 @@ int Run(const Options& opt) {
         if (opt.histograms) writer.WriteHistograms(s, paths, traced.histograms, diag);
 
         // Synthesis, streamed to WAV one seat at a time per worker.
-        progress.Stage(label + ": impulse responses for " + std::to_string(scene.receivers.size()) + " seats");
         tStage = Clock::now();
         if (!opt.noWav) {
             hallwright::SynthesisContext ctx;
@@ -323,12 +353,15 @@ int Run(const Options& opt) {
             ctx.speedOfSound = c;
             ctx.seed = scene.settings.seed;
             ctx.source = s;
-            writer.WriteImpulseResponses(s, paths, traced.histograms, ctx, gInterrupted,
-                                         opt.wavFormat == "pcm24" ? hallwright::WavFormat::kPcm24 : hallwright::WavFormat::kFloat32,
-                                         record, diag);
-            writer.WriteSpatialImpulseResponses(s, paths, traced.histograms, spatialSeats, ctx, hrtf.get(),
-                                                opt.wavFormat == "pcm24" ? hallwright::WavFormat::kPcm24
-                                                                         : hallwright::WavFormat::kFloat32,
+            const auto format = opt.wavFormat == "pcm24" ? hallwright::WavFormat::kPcm24 : hallwright::WavFormat::kFloat32;
+            std::atomic<int64_t> seatsDone{0};
+            progress.Counted(label + ": impulse responses for " + std::to_string(scene.receivers.size()) + " seats",
+                             "seats", seatsDone, static_cast<int64_t>(scene.receivers.size()), [&] {
+                                 writer.WriteImpulseResponses(s, paths, traced.histograms, ctx, gInterrupted, format,
+                                                              record, diag, &seatsDone);
+                             });
+            progress.Stage(label + ": AmbiX and binaural files for " + std::to_string(spatialSeats.size()) + " seats");
+            writer.WriteSpatialImpulseResponses(s, paths, traced.histograms, spatialSeats, ctx, hrtf.get(), format,
                                                 record, diag);
         }
         synthS += Seconds(tStage);

@@ -204,7 +204,7 @@ void OutputWriter::WriteImpulseResponses(int source, const std::vector<hallwrigh
                                          const std::vector<hallwright::ReceiverHistogram>& histograms,
                                          const hallwright::SynthesisContext& context, const std::atomic<bool>& stop,
                                          hallwright::WavFormat format, RunRecord& record,
-                                         hallwright::Diagnostics& diag) {
+                                         hallwright::Diagnostics& diag, std::atomic<int64_t>* seatsDone) {
     // One seat at a time per worker: synthesize, write, free. Diagnostics kept per seat and
     // appended in seat order, so messages do not depend on the thread count.
     std::vector<hallwright::Diagnostics> perSeat(histograms.size());
@@ -219,6 +219,7 @@ void OutputWriter::WriteImpulseResponses(int source, const std::vector<hallwrigh
         if (perSeat[i].HasErrors()) return;
         const auto info = FileInfo(scene_, source, hist.receiver, ctx.seed);
         if (hallwright::WriteImpulseResponseFiles(dir_, ir, info, format, perSeat[i])) ++written;
+        if (seatsDone) seatsDone->fetch_add(1, std::memory_order_relaxed);
     });
     for (const auto& d : perSeat) diag.Append(d);
     record.wavFiles += written.load();

@@ -63,7 +63,8 @@ class OutputWriter {
     void WriteImpulseResponses(int source, const std::vector<hallwright::ReceiverPaths>& paths,
                                const std::vector<hallwright::ReceiverHistogram>& histograms,
                                const hallwright::SynthesisContext& context, const std::atomic<bool>& stop,
-                               hallwright::WavFormat format, RunRecord& record, hallwright::Diagnostics& diag);
+                               hallwright::WavFormat format, RunRecord& record, hallwright::Diagnostics& diag,
+                               std::atomic<int64_t>* seatsDone = nullptr);
     /* AmbiX and binaural IRs (with sidecars) for the chosen receivers; `hrtf` may be null
        (binaural then skipped). */
     void WriteSpatialImpulseResponses(int source, const std::vector<hallwright::ReceiverPaths>& paths,

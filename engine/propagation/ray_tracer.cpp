@@ -759,6 +759,7 @@ TracerResult TraceSource(const Room& room, int source, const TracerOptions& opti
                     remaining[b] += out->remaining[b];
                 }
                 result.subRays += out->subRays;
+                if (options.raysDone) options.raysDone->fetch_add(kRaysPerChunk, std::memory_order_relaxed);
                 result.segments += out->segments;
                 result.reflections += out->reflections;
                 result.escapedRays += out->escapedRays;

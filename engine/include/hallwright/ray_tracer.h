@@ -56,6 +56,8 @@ struct TracerOptions {
     /* When set and it becomes true, no further chunk starts; the result is then marked
        `cancelled` and must be discarded (used by the CLI for Ctrl-C). */
     const std::atomic<bool>* cancel = nullptr;
+    /* When set, the number of primary rays finished so far (for a progress display). */
+    std::atomic<int64_t>* raysDone = nullptr;
 };
 
 /* One ray that left the model: where it left (last surface point) and its direction. */
