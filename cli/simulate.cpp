@@ -95,6 +95,8 @@ void ComputeSeatTables(const hallwright::Scene& scene, int s, const std::vector<
         hallwright::HistogramMetricsOptions mo;
         mo.bands = scene.settings.reportedBands;
         mo.perBatchValues = false;  // zone statistics use the delete-one-batch replicates only
+        mo.speech.speechLevelDbA = scene.speech.levelDb;
+        mo.speech.noiseOctaveDb = scene.speech.noiseOctaveDb;
         mo.sourceDirection = (scene.sources[s].position - scene.receivers[r].position).normalized();
         auto& seat = seats[r];
         seat.source = s;

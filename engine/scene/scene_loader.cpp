@@ -26,7 +26,7 @@ namespace hallwright {
 
 const std::vector<SchemaSection>& SceneSchema() {
     static const std::vector<SchemaSection> kSchema = {
-        {"", false, {"title", "model", "materials", "air", "source", "receiver", "seating", "simulation", "review"}},
+        {"", false, {"title", "model", "materials", "air", "source", "receiver", "seating", "simulation", "review", "speech", "noise"}},
         {"model", false, {"mesh", "units", "up"}},
         {"materials", false, {"tables", "assign"}},
         {"air", false, {"temperature_c", "humidity_pct", "pressure_kpa"}},
@@ -35,6 +35,8 @@ const std::vector<SchemaSection>& SceneSchema() {
         {"seating", true, {"zone", "surfaces", "spacing_m", "ear_height_m", "facing"}},
         {"simulation", false, {"rays", "image_order", "duration_s", "sample_rate", "seed", "bands"}},
         {"review", false, {"venue", "flutter_max_angle_deg"}},  // design review (issue 10)
+        {"speech", false, {"level_db"}},                        // STI level terms (issue 7)
+        {"noise", false, {"octave_db"}},
     };
     return kSchema;
 }
@@ -571,6 +573,29 @@ std::optional<SceneFile> ParseSceneToml(std::string_view text, const std::string
             if (InRange(r, *rev, "flutter_max_angle_deg", where, *v, 0, 45,
                         "give the largest splay (degrees, 0..45) still treated as parallel; default 3"))
                 scene.review.flutterMaxAngleDeg = *v;
+    }
+    // [speech] level_db and [noise] octave_db (IEC 60268-16:2011 level-dependent STI terms)
+    if (const toml::table* sp = table("speech"))
+        if (auto v = r.Number(*sp, "level_db", "[speech]"))
+            if (InRange(r, *sp, "level_db", "[speech]", *v, 20, 110,
+                        "give the A-weighted speech level at 1 m in dB (normal voice about 60)"))
+                scene.speech.levelDb = *v;
+    if (const toml::table* nz = table("noise")) {
+        if (const toml::node* n = nz->get("octave_db")) {
+            const toml::array* arr = n->as_array();
+            bool ok = arr && arr->size() == kBandCount;
+            Bands levels = Bands::Zero();
+            for (size_t i = 0; ok && i < arr->size(); ++i) {
+                auto d = (*arr)[i].value<double>();
+                if (!d || !std::isfinite(*d) || *d < -20 || *d > 130) ok = false;
+                else levels[static_cast<int>(i)] = *d;
+            }
+            if (ok)
+                scene.speech.noiseOctaveDb = levels;
+            else
+                r.Error(r.At(*n), "octave_db in [noise] must list 8 octave levels in dB (63, 125, ..., 8000 Hz), "
+                                  "each within -20..130, e.g. [45, 40, 35, 30, 25, 20, 18, 15]");
+        }
     }
     if (r.Errors() > 0) return std::nullopt;
     return out;

@@ -30,7 +30,9 @@ const std::string kEveryKey =
         "[[seating]]\nzone = \"floor\"\nsurfaces = [\"floor\"]\nspacing_m = 0.9\near_height_m = 1.1\nfacing = \"B\"\n"
         "[simulation]\nrays = 5000\nimage_order = 2\nduration_s = 1.5\nsample_rate = 44100\nseed = 7\n"
         "bands = [4000, 63, 8000]\n"
-        "[review]\nvenue = \"theatre\"\nflutter_max_angle_deg = 5\n";
+        "[review]\nvenue = \"theatre\"\nflutter_max_angle_deg = 5\n"
+        "[speech]\nlevel_db = 66\n"
+        "[noise]\noctave_db = [50, 45, 40, 35, 30, 25, 20, 15]\n";
 
 // Writes box.obj plus scene.toml into a fresh directory and returns the scene path.
 std::string WriteScene(const std::string& name, const std::string& toml, const std::string& obj = BoxObj(8, 4, 10)) {
@@ -104,6 +106,8 @@ TEST(SceneLoader, ReadsEveryKey) {
     EXPECT_EQ(scene->settings.reportedBands, (std::vector<int>{0, 6, 7}));
     EXPECT_EQ(scene->review.venue, "theatre");
     EXPECT_DOUBLE_EQ(scene->review.flutterMaxAngleDeg, 5.0);
+    EXPECT_DOUBLE_EQ(scene->speech.levelDb.value(), 66.0);
+    EXPECT_DOUBLE_EQ(scene->speech.noiseOctaveDb.value()[3], 35.0);
 }
 
 TEST(SceneLoader, RejectsUnknownKeysWithDidYouMean) {
@@ -274,6 +278,14 @@ TEST(SceneLoader, MillimetreModelEqualsMetreModel) {
     EXPECT_DOUBLE_EQ(ModelUnitScale("in"), 0.0254);
     EXPECT_DOUBLE_EQ(ModelUnitScale("ft"), 0.3048);
     EXPECT_DOUBLE_EQ(ModelUnitScale("cm"), 0.01);
+}
+
+TEST(SceneLoader, NoiseNeedsEightOctaveLevels) {
+    Diagnostics diag;
+    ParseSceneToml("[model]\nmesh = \"box.obj\"\n[[source]]\nposition = [1, 1, 1]\n"
+                   "[noise]\noctave_db = [40, 35]\n",
+                   "hall.toml", diag);
+    EXPECT_TRUE(HasError(diag, "hall.toml", 6, "octave_db in [noise] must list 8 octave levels"));
 }
 
 // spacing_m is metres whatever the model units: a value written in millimetres is refused.

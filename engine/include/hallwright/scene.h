@@ -51,6 +51,12 @@ struct ReviewSettings {
     SourceLoc definedAt;
 };
 
+/* [speech] and [noise]: the level-dependent terms of STI (IEC 60268-16:2011). */
+struct SpeechSettings {
+    std::optional<double> levelDb;     // [speech] level_db: A-weighted speech level at 1 m
+    std::optional<Bands> noiseOctaveDb;  // [noise] octave_db: background noise per octave 63..8k
+};
+
 /* A [[seating]] block: a grid of seats laid over the faces of OBJ groups. */
 struct SeatingBlock {
     std::string zone;
@@ -76,6 +82,7 @@ struct Scene {
     AirConditions air;
     SimulationSettings settings;
     ReviewSettings review;
+    SpeechSettings speech;
 
     /* Converts a point from the internal frame back to the model's units and axes. */
     Vec3 ToModel(const Vec3& p) const;
