@@ -1,4 +1,5 @@
 // Tracer histograms as CSV (see histogram_csv.h).
+#include "hallwright/ir_writer.h"
 #include "hallwright/histogram_csv.h"
 
 #include <cmath>
@@ -10,16 +11,6 @@
 namespace hallwright {
 namespace {
 
-std::string SafeName(const std::string& name) {
-    std::string out = name.empty() ? std::string("_") : name;
-    for (char& ch : out) {
-        const bool ok = (ch >= 'a' && ch <= 'z') || (ch >= 'A' && ch <= 'Z') || (ch >= '0' && ch <= '9') ||
-                        ch == '.' || ch == '-' || ch == '_';
-        if (!ok) ch = '_';
-    }
-    return out;
-}
-
 SourceLoc FileLoc(const std::string& file) {
     SourceLoc at;
     at.file = file;
@@ -29,7 +20,7 @@ SourceLoc FileLoc(const std::string& file) {
 }  // namespace
 
 std::string HistogramCsvFileName(const Scene& scene, int source, int receiver) {
-    return SafeName(scene.sources.at(source).name) + "__" + SafeName(scene.receivers.at(receiver).name) + ".csv";
+    return SafeFileComponent(scene.sources.at(source).name) + "__" + SafeFileComponent(scene.receivers.at(receiver).name) + ".csv";
 }
 
 std::string FormatHistogramCsv(const ReceiverHistogram& hist, const ReceiverPaths* paths) {

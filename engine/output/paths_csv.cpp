@@ -1,4 +1,5 @@
 // Specular paths as CSV files (see paths_csv.h).
+#include "hallwright/ir_writer.h"
 #include "hallwright/paths_csv.h"
 
 #include <cstdio>
@@ -12,16 +13,6 @@
 namespace hallwright {
 
 namespace {
-
-std::string SafeName(const std::string& name) {
-    std::string out = name.empty() ? std::string("_") : name;
-    for (char& ch : out) {
-        const bool ok = (ch >= 'a' && ch <= 'z') || (ch >= 'A' && ch <= 'Z') || (ch >= '0' && ch <= '9') ||
-                        ch == '.' || ch == '-' || ch == '_';
-        if (!ok) ch = '_';
-    }
-    return out;
-}
 
 void AppendNumber(std::string& s, double v) {
     char buf[40];
@@ -43,7 +34,7 @@ std::string CsvField(const std::string& v) {
 }  // namespace
 
 std::string PathsCsvFileName(const Scene& scene, int source, int receiver) {
-    return SafeName(scene.sources.at(source).name) + "__" + SafeName(scene.receivers.at(receiver).name) + ".csv";
+    return SafeFileComponent(scene.sources.at(source).name) + "__" + SafeFileComponent(scene.receivers.at(receiver).name) + ".csv";
 }
 
 std::string FormatPathsCsv(const Scene& scene, const Geometry& geometry, const ReceiverPaths& paths) {
