@@ -41,7 +41,14 @@ namespace hallwright {
 namespace {
 
 constexpr double kPi = 3.14159265358979323846;
-constexpr int64_t kRaysPerChunk = 256;  // fixed, never derived from the thread count
+constexpr int64_t kRaysPerChunk = 256;
+
+/* A length for messages: two decimals ("1.00"). */
+std::string FormatMetres(double m) {
+    char buf[32];
+    std::snprintf(buf, sizeof buf, "%.2f", m);
+    return buf;
+}  // fixed, never derived from the thread count
 constexpr int kMaxSubRays = kBandCount;  // a split partitions the bands: at most 8 alive
 constexpr int kMaxFallbackCasts = 16;
 constexpr double kAirStepM = 0.1;
@@ -669,7 +676,7 @@ TracerResult TraceSource(const Room& room, int source, const TracerOptions& opti
         diag.Warning(FileLoc(scene.scenePath), std::to_string(clampedSmall) +
                                             " receiver(s) are so close to a surface that their sphere "
                                             "radius was cut below half of " +
-                                            std::to_string(result.receiverRadiusM) +
+                                            FormatMetres(result.receiverRadiusM) +
                                             " m; their histograms are noisier (move them away)");
     const ReceiverGrid grid(centres, radii);
 
