@@ -10,6 +10,8 @@
 #include <numeric>
 #include <unordered_map>
 
+#include "util/union_find.h"
+
 namespace hallwright {
 
 namespace {
@@ -24,20 +26,6 @@ constexpr double kCoplanarDistM = 1e-4;
 /* Size checks for a likely units mistake (common practice, no source). */
 constexpr double kLargestPlausibleM = 1000.0;
 constexpr double kSmallestPlausibleM = 2.0;
-
-struct UnionFind {
-    std::vector<int> parent;
-    explicit UnionFind(size_t n) : parent(n) { std::iota(parent.begin(), parent.end(), 0); }
-    int Find(int x) {
-        while (parent[x] != x) x = parent[x] = parent[parent[x]];
-        return x;
-    }
-    void Unite(int a, int b) {
-        a = Find(a);
-        b = Find(b);
-        if (a != b) parent[std::max(a, b)] = std::min(a, b);
-    }
-};
 
 std::string FormatPoint(const Scene& scene, const Vec3& p) {
     const Vec3 m = scene.ToModel(p);
@@ -67,6 +55,8 @@ struct EdgeUse {
 };
 
 }  // namespace
+
+std::vector<uint32_t> WeldedVertexIds(const Mesh& mesh) { return WeldVertices(mesh); }
 
 std::optional<Geometry> Geometry::Build(Scene& scene, Diagnostics& diag) {
     Mesh& mesh = scene.mesh;

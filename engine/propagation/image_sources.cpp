@@ -25,8 +25,6 @@ constexpr double kSideEps = 1e-9;
 constexpr double kPairEps = 1e-6;
 /* Barycentric slack of the point-in-face test (shared edges of a face's triangles). */
 constexpr double kBaryEps = 1e-9;
-/* Welding tolerance for the open-panel analysis; the same value Geometry::Build welds with. */
-constexpr double kWeldM = 1e-5;
 /* Rays per chunk of the candidate search (fixed, so chunking never depends on threads). */
 constexpr int64_t kRaysPerChunk = 4096;
 
@@ -66,18 +64,6 @@ struct FaceTable {
    and is not the room's outer shell. Geometry::Build keeps their winding as given, so they
    reflect on both sides. The outer shell is the closed component of largest |volume|, or the
    largest component when none is closed (the same rule Geometry::Build orients with). */
-/* Vertex ids with positions equal within kWeldM merged (deterministic). */
-std::vector<uint32_t> WeldedVertexIds(const Mesh& mesh) {
-    std::map<std::array<int64_t, 3>, uint32_t> cells;
-    std::vector<uint32_t> weld(mesh.vertices.size());
-    for (size_t i = 0; i < mesh.vertices.size(); ++i) {
-        std::array<int64_t, 3> key;
-        for (int k = 0; k < 3; ++k) key[k] = std::llround(mesh.vertices[i][k] / kWeldM);
-        weld[i] = cells.emplace(key, static_cast<uint32_t>(i)).first->second;
-    }
-    return weld;
-}
-
 std::vector<char> TwoSidedTriangles(const Mesh& mesh, const std::vector<uint32_t>& weld) {
     const size_t nTri = mesh.TriangleCount();
     std::map<std::pair<uint32_t, uint32_t>, std::vector<uint32_t>> edges;

@@ -4,6 +4,7 @@
 #include <cmath>
 #include <numeric>
 
+#include "util/union_find.h"
 #include "hallwright/air.h"
 #include "hallwright/review.h"
 #include "review/review_util.h"
@@ -36,20 +37,6 @@ struct Surface {
     Vec3 centroid = Vec3::Zero();
     std::vector<int> faces;
     double alpha = 0, scattering = 0;  // area-weighted means at 1-4 kHz
-};
-
-struct UnionFind {
-    std::vector<int> parent;
-    explicit UnionFind(size_t n) : parent(n) { std::iota(parent.begin(), parent.end(), 0); }
-    int Find(int x) {
-        while (parent[x] != x) x = parent[x] = parent[parent[x]];
-        return x;
-    }
-    void Unite(int a, int b) {
-        a = Find(a);
-        b = Find(b);
-        if (a != b) parent[std::max(a, b)] = std::min(a, b);
-    }
 };
 
 std::vector<Surface> HardSurfaces(const Scene& scene, const Geometry& geometry) {

@@ -15,19 +15,6 @@ namespace hallwright {
 
 namespace review {
 
-std::vector<uint32_t> WeldedVertexIds(const Mesh& mesh) {
-    constexpr double kWeldM = 1e-5;
-    std::map<std::array<int64_t, 3>, uint32_t> cells;
-    std::vector<uint32_t> id(mesh.vertices.size());
-    for (size_t i = 0; i < mesh.vertices.size(); ++i) {
-        std::array<int64_t, 3> key;
-        for (int k = 0; k < 3; ++k) key[k] = std::llround(mesh.vertices[i][k] / kWeldM);
-        auto [it, inserted] = cells.emplace(key, static_cast<uint32_t>(i));
-        id[i] = it->second;
-    }
-    return id;
-}
-
 std::vector<std::vector<uint32_t>> FaceVertexIds(const Geometry& geometry, const std::vector<uint32_t>& weld) {
     const Mesh& mesh = geometry.GetMesh();
     std::vector<std::vector<uint32_t>> out(geometry.Faces().size());

@@ -12,9 +12,7 @@ namespace hallwright::review {
 
 using Vec2 = Eigen::Vector2d;
 
-/* Welded vertex ids: mesh vertices closer than 10 um share an id (so faces of different groups
-   or materials that touch are found adjacent even when the OBJ repeats vertices). */
-std::vector<uint32_t> WeldedVertexIds(const Mesh& mesh);
+using hallwright::WeldedVertexIds;  // geometry.h: the one welding rule
 
 /* Sorted welded vertex ids of every face. */
 std::vector<std::vector<uint32_t>> FaceVertexIds(const Geometry& geometry, const std::vector<uint32_t>& weld);

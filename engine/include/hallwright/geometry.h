@@ -60,6 +60,11 @@ struct OpenEdge {
     int objLine = 0;   // an OBJ face line that uses the edge
 };
 
+/* Topology ids of the mesh vertices: positions equal within 10 um share one id (the lowest
+   index), so surfaces that touch are adjacent even when the OBJ repeats vertices. The one
+   welding rule used by face merging, image sources and the design review. */
+std::vector<uint32_t> WeldedVertexIds(const Mesh& mesh);
+
 class Geometry {
   public:
     /* Validates and merges the mesh; fixes winding (warns) so normals point into the room. */
