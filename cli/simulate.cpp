@@ -27,6 +27,7 @@
 #include "hallwright/room.h"
 #include "hallwright/room_acoustics.h"
 #include "hallwright/run_tables.h"
+#include "hallwright/spatial_seats.h"
 #include "hallwright/versions.h"
 #include "simulate_outputs.h"
 
@@ -105,46 +106,6 @@ void ComputeSeatTables(const hallwright::Scene& scene, int s, const std::vector<
         seat.table = hallwright::ParametersFromHistogram(paths[r], histograms[r], mo);
         hallwright::AddSingleNumbers(seat.table);
     });
-}
-
-/* Seats whose decay curves go into the report: per zone, the seat nearest the zone's centroid. */
-std::vector<int> CurveSeats(const hallwright::Scene& scene) {
-    std::vector<std::string> zones;
-    for (const auto& r : scene.receivers)
-        if (std::find(zones.begin(), zones.end(), r.zone) == zones.end()) zones.push_back(r.zone);
-    std::vector<int> chosen;
-    for (const auto& zone : zones) {
-        hallwright::Vec3 centre = hallwright::Vec3::Zero();
-        int n = 0;
-        for (const auto& r : scene.receivers)
-            if (r.zone == zone) centre += r.position, ++n;
-        centre /= n;
-        int best = -1;
-        for (int i = 0; i < static_cast<int>(scene.receivers.size()); ++i)
-            if (scene.receivers[i].zone == zone &&
-                (best < 0 || (scene.receivers[i].position - centre).norm() < (scene.receivers[best].position - centre).norm()))
-                best = i;
-        chosen.push_back(best);
-    }
-    return chosen;
-}
-
-/* Seats that get AmbiX and binaural files: two per zone, the one nearest the zone's centroid
-   and the one farthest from the first source (the zone's back). */
-std::vector<int> SpatialSeats(const hallwright::Scene& scene) {
-    std::vector<int> chosen = CurveSeats(scene);
-    const hallwright::Vec3 source = scene.sources[0].position;
-    for (size_t z = 0, n = chosen.size(); z < n; ++z) {
-        const std::string& zone = scene.receivers[chosen[z]].zone;
-        int far = -1;
-        for (int i = 0; i < static_cast<int>(scene.receivers.size()); ++i)
-            if (scene.receivers[i].zone == zone && i != chosen[z] &&
-                (far < 0 || (scene.receivers[i].position - source).norm() > (scene.receivers[far].position - source).norm()))
-                far = i;
-        if (far >= 0) chosen.push_back(far);
-    }
-    std::sort(chosen.begin(), chosen.end());
-    return chosen;
 }
 
 /* The row a --target-ci entry is checked on: the single number (EDT -> EDT_M), or STI. */
@@ -263,14 +224,23 @@ int Run(const Options& opt) {
     // Design review: the geometric rules once; echoes per source from its paths and histograms.
     const auto reviewOptions = hallwright::ReviewOptionsFrom(scene);
     std::vector<hallwright::Finding> findings = hallwright::ReviewRoom(scene, room->geometry, reviewOptions);
-    const std::vector<int> curveSeats = CurveSeats(scene);
-    const std::vector<int> spatialSeats = SpatialSeats(scene);
+    const std::vector<int> curveSeats = hallwright::SeatsNearZoneCentroids(scene);
+    const std::vector<int> spatialSeats = hallwright::ChooseSpatialSeats(scene, diag);
     std::unique_ptr<hallwright::HrtfSet> hrtf;
-    if (!opt.noWav) {
+    if (!opt.noWav && !spatialSeats.empty()) {
+        // The scene's own set must open (an error); the default set may be missing (a warning).
         hallwright::Diagnostics hrtfDiag;
-        hrtf = hallwright::HrtfSet::Open(hallwright::kDefaultHrtfPath, scene.settings.sampleRate, hrtfDiag);
-        for (const auto& d : hrtfDiag.Items())
-            diag.Warning(d.at, d.message + " — binaural files are skipped");
+        const bool own = !scene.output.hrtfPath.empty();
+        hrtf = hallwright::HrtfSet::Open(own ? scene.output.hrtfPath : hallwright::kDefaultHrtfPath,
+                                         scene.settings.sampleRate, hrtfDiag);
+        for (const auto& d : hrtfDiag.Items()) {
+            if (own)
+                diag.Error(scene.output.hrtfAt, d.message + "; fix [output] hrtf or leave it out for the default set");
+            else
+                diag.Warning(d.at, d.message + " — binaural files are skipped (Debian's libmysofa1 package ships the default set; or "
+                                               "set [output] hrtf = \"file.sofa\")");
+        }
+        if (own && !hrtf) return hwcli::Report(diag);
     }
     std::vector<hallwright::SeatCurves> curves;
     double imageS = 0, traceS = 0, synthS = 0, metricsS = 0;

@@ -26,7 +26,7 @@ namespace hallwright {
 
 const std::vector<SchemaSection>& SceneSchema() {
     static const std::vector<SchemaSection> kSchema = {
-        {"", false, {"title", "model", "materials", "air", "source", "receiver", "seating", "simulation", "review", "speech", "noise"}},
+        {"", false, {"title", "model", "materials", "air", "source", "receiver", "seating", "simulation", "review", "speech", "noise", "output"}},
         {"model", false, {"mesh", "units", "up"}},
         {"materials", false, {"tables", "assign"}},
         {"air", false, {"temperature_c", "humidity_pct", "pressure_kpa"}},
@@ -37,6 +37,7 @@ const std::vector<SchemaSection>& SceneSchema() {
         {"review", false, {"venue", "flutter_max_angle_deg"}},  // design review (issue 10)
         {"speech", false, {"level_db"}},                        // STI level terms (issue 7)
         {"noise", false, {"octave_db"}},
+        {"output", false, {"spatial_seats", "spatial_per_zone", "hrtf"}},  // spatial files (issue 6)
     };
     return kSchema;
 }
@@ -595,6 +596,44 @@ std::optional<SceneFile> ParseSceneToml(std::string_view text, const std::string
             else
                 r.Error(r.At(*n), "octave_db in [noise] must list 8 octave levels in dB (63, 125, ..., 8000 Hz), "
                                   "each within -20..130, e.g. [45, 40, 35, 30, 25, 20, 18, 15]");
+        }
+    }
+    // [output] spatial_seats / spatial_per_zone / hrtf (issue 6). Seat names are checked
+    // against the placed seats by ChooseSpatialSeats (spatial_seats.h), once seats exist.
+    if (const toml::table* o = table("output")) {
+        const std::string where = "[output]";
+        if (const toml::node* n = o->get("spatial_seats")) {
+            const toml::array* a = n->as_array();
+            bool ok = a != nullptr;
+            for (size_t k = 0; ok && k < a->size(); ++k) {
+                if (auto s = a->get(k)->as_string(); s && !s->get().empty()) {
+                    scene.output.spatialSeats.push_back(s->get());
+                    scene.output.spatialSeatsAt.push_back(r.At(*a->get(k)));
+                } else {
+                    r.Error(r.At(*a->get(k)), "each entry of spatial_seats in [output] must be a seat name in quotes, "
+                                              "e.g. spatial_seats = [\"stalls-r05-s10\"]");
+                    ok = false;
+                }
+            }
+            if (!a)
+                r.Error(r.At(*n), "spatial_seats in [output] must be a list of seat names, e.g. "
+                                  "spatial_seats = [\"stalls-r05-s10\"] (names as in seats.csv)");
+            if (ok && !o->get("spatial_per_zone")) scene.output.spatialPerZone = 0;
+        }
+        if (auto v = r.Integer(*o, "spatial_per_zone", where))
+            if (InRange(r, *o, "spatial_per_zone", where, static_cast<double>(*v), 0, 100,
+                        "give 0..100 seats per zone that get AmbiX and binaural files (default 2)"))
+                scene.output.spatialPerZone = static_cast<int>(*v);
+        if (auto v = r.String(*o, "hrtf", where)) {
+            scene.output.hrtfAt = r.At(*o->get("hrtf"));
+            const std::string resolved = ResolvePath(path, *v);
+            std::error_code ec;
+            if (v->empty() || !fs::is_regular_file(resolved, ec))
+                r.Error(scene.output.hrtfAt, "hrtf in [output]: no file '" + resolved +
+                                                 "'; give the path of a SOFA HRTF file (relative to the scene file), "
+                                                 "or leave the key out for the default set");
+            else
+                scene.output.hrtfPath = resolved;
         }
     }
     if (r.Errors() > 0) return std::nullopt;

@@ -23,6 +23,7 @@
 #include <set>
 
 #include "hallwright/room.h"
+#include "hallwright/spatial_seats.h"
 #include "scene/text_util.h"
 
 namespace hallwright {
@@ -259,6 +260,8 @@ std::unique_ptr<Room> LoadRoom(const std::string& scenePath, Diagnostics& diag) 
     if (!geometry || diag.ErrorCount() > errorsBefore) return nullptr;
     room->geometry = std::move(*geometry);
     PlaceReceivers(room->scene, room->geometry, diag);
+    if (diag.ErrorCount() > errorsBefore) return nullptr;
+    ChooseSpatialSeats(room->scene, diag);  // checks [output] spatial_seats names the seats
     if (diag.ErrorCount() > errorsBefore) return nullptr;
     return room;
 }

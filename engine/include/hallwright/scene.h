@@ -57,6 +57,18 @@ struct SpeechSettings {
     std::optional<Bands> noiseOctaveDb;  // [noise] octave_db: background noise per octave 63..8k
 };
 
+/* [output]: which seats get AmbiX and binaural files, and the HRTF set. */
+struct OutputSettings {
+    std::vector<std::string> spatialSeats;   // [output] spatial_seats: seat names
+    std::vector<SourceLoc> spatialSeatsAt;   // where each name is written
+    /* [output] spatial_per_zone: seats chosen per zone (nearest the zone centroid, then the
+       farthest from the first source, then spread out); default 2, or 0 when spatial_seats
+       is given without it. */
+    int spatialPerZone = 2;
+    std::string hrtfPath;                    // [output] hrtf: SOFA file ("" = the default set)
+    SourceLoc hrtfAt;
+};
+
 /* A [[seating]] block: a grid of seats laid over the faces of OBJ groups. */
 struct SeatingBlock {
     std::string zone;
@@ -83,6 +95,7 @@ struct Scene {
     SimulationSettings settings;
     ReviewSettings review;
     SpeechSettings speech;
+    OutputSettings output;
 
     /* Converts a point from the internal frame back to the model's units and axes. */
     Vec3 ToModel(const Vec3& p) const;
