@@ -107,7 +107,8 @@ int Run(const AuralizeArgs& a) {
                                   .c_str()
                             : "none (the rates match)");
     if (r.downmixed) std::printf("downmix:          stereo -> mono, (L + R) / 2: an impulse response describes one point source\n");
-    std::printf("output:           %s: %d channel(s), %d Hz, %.3f s, %s\n", a.out.c_str(), r.output.channels,
+    std::printf("output:           %s: %d channel(s) in the IR's layout, %d Hz, %.3f s, %s\n", a.out.c_str(),
+                r.output.channels,
                 r.output.sampleRate, double(r.output.FrameCount()) / r.output.sampleRate,
                 format == hw::WavFormat::kPcm24 ? "24-bit PCM" : "32-bit float");
     if (a.keepCalibration)
