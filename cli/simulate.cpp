@@ -18,6 +18,8 @@
 #include "hallwright/air.h"
 #include "hallwright/hash.h"
 #include "hallwright/image_sources.h"
+#include "hallwright/ir_writer.h"
+#include "hallwright/listening.h"
 #include "hallwright/metrics.h"
 #include "hallwright/paths_csv.h"
 #include "hallwright/ray_tracer.h"
@@ -207,6 +209,15 @@ int Run(const Options& opt) {
         std::fprintf(stderr, "%s: error: cannot create the output directory: %s\n", opt.out.c_str(), ec.message().c_str());
         return hwcli::kExitBadCommandLine;
     }
+    // The dry recording of --listen is read now, so a bad file fails before the long work.
+    std::optional<hallwright::WavData> dry;
+    if (!opt.listen.empty()) {
+        dry = hallwright::ReadWav(opt.listen, diag);
+        if (!dry) {
+            diag.Error({opt.listen, 0, 0, ""}, "--listen needs a readable WAV (or FLAC/AIFF) dry recording, mono or stereo");
+            return hwcli::Report(diag);
+        }
+    }
     hwcli::Report(diag);  // warnings so far
     const size_t printedDiagnostics = diag.Items().size();
     timings["load_s"] = Seconds(tStage);
@@ -347,6 +358,48 @@ int Run(const Options& opt) {
     timings["synthesis_s"] = synthS;
     timings["parameters_s"] = metricsS;
 
+    // Listening files: the dry recording through every binaural IR written (mono IRs of the
+    // same seats when there is no HRTF set), one common gain.
+    std::vector<hallwright::ReportListening> listening;
+    double listeningGainDb = 0;
+    if (dry && !gInterrupted) {
+        progress.Stage("listening files: " + fs::path(opt.listen).filename().string() + " through " +
+                       std::to_string(spatialSeats.size()) + " seats");
+        std::vector<hallwright::WavData> irs;
+        for (int s : record.finishedSources)
+            for (int r : spatialSeats) {
+                const std::string layout = hrtf ? "binaural-lr" : "mono";
+                const std::string rel = hallwright::ImpulseResponseRelativePath(layout, scene.sources[s].name,
+                                                                                scene.receivers[r].name);
+                auto ir = hallwright::ReadWav((fs::path(opt.out) / rel).string(), diag);
+                if (!ir) continue;
+                irs.push_back(std::move(*ir));
+                hallwright::ReportListening l;
+                l.source = scene.sources[s].name;
+                l.seat = scene.receivers[r].name;
+                l.zone = scene.receivers[r].zone;
+                l.layout = layout;
+                l.file = "listening/" + hallwright::SafeFileComponent(l.source) + "__" +
+                         hallwright::SafeFileComponent(l.seat) + ".wav";
+                listening.push_back(l);
+            }
+        if (!hrtf) diag.Warning({opt.listen, 0, 0, ""}, "no HRTF set, so the listening files are mono, not binaural");
+        auto set = hallwright::RenderListeningSet(*dry, irs, -1.0, diag);
+        std::error_code dirError;
+        fs::create_directories(fs::path(opt.out) / "listening", dirError);
+        if (set.ok) {
+            listeningGainDb = set.gainDb;
+            for (size_t i = 0; i < listening.size(); ++i) {
+                listening[i].peakDbfs = set.peakDbfs[i];
+                if (!hallwright::WriteWav((fs::path(opt.out) / listening[i].file).string(), set.renders[i],
+                                          hallwright::WavFormat::kFloat32, diag))
+                    listening.clear();
+            }
+        } else {
+            listening.clear();
+        }
+    }
+
     // Tables (written even after an interruption, for the sources that finished).
     tStage = Clock::now();
     writer.WriteTables(seats, diag);
@@ -359,6 +412,9 @@ int Run(const Options& opt) {
         input.findingsJson = hallwright::FindingsToJson(findings);
         for (const auto& d : diag.Items()) input.warnings.push_back(hallwright::FormatDiagnostic(d));
         input.raysPerSource = static_cast<int>(scene.settings.rays);
+        input.listening = listening;
+        input.listeningDry = fs::path(opt.listen).filename().string();
+        input.listeningGainDb = listeningGainDb;
         hallwright::WriteTextFileAtomic((std::filesystem::path(opt.out) / "report.html").string(),
                                         hallwright::RenderReport(input), diag);
     }
@@ -377,6 +433,11 @@ int Run(const Options& opt) {
     if (!opt.quiet)
         std::printf("results for %zu seats x %zu sources in %s (%.1f s)\n", scene.receivers.size(),
                     scene.sources.size(), opt.out.c_str(), Seconds(tStart));
+    if (!listening.empty())
+        std::printf("%zu listening files in %s/listening/ (one common gain, %+.1f dB; the loudest peaks at -1 dBFS).\n"
+                    "CAUTION: start playback quietly, especially on headphones; these files are normalised, "
+                    "not calibrated to the hall's level.\n",
+                    listening.size(), opt.out.c_str(), listeningGainDb);
     return hwcli::kExitOk;
 }
 
@@ -424,6 +485,11 @@ const bool kRegistered = hwcli::AddCommand(
         sub->add_option("--wav-format", opt->wavFormat, "sample format of the WAV files")
             ->check(CLI::IsMember({"float32", "pcm24"}));
         sub->add_flag("--quiet", opt->quiet, "no progress display");
+        auto* noWav = sub->get_option("--no-wav");
+        sub->add_option("--listen", opt->listen,
+                        "dry recording (mono or stereo WAV) to render through the seats with binaural files, "
+                        "into DIR/listening/ and the report")
+            ->excludes(noWav);
         sub->add_option("--threads", opt->threads, "worker threads (0 = all cores)")->check(CLI::NonNegativeNumber);
         sub->add_option("--seed", opt->seed, "random seed (overrides [simulation] seed)");
         sub->add_option("--rays", opt->rays, "rays per source (overrides [simulation] rays)")

@@ -32,6 +32,7 @@ struct SimulateOptions {
     std::map<std::string, double> targets;  // parsed: parameter -> 95 % half-width
     int64_t maxRays = 2000000;              // --max-rays
     std::string wavFormat = "float32";      // --wav-format float32 | pcm24
+    std::string listen;                     // --listen DRY.wav: listening files for the spatial seats
 };
 
 /* What run.json records besides settings and timings. */

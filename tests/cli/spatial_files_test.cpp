@@ -1,6 +1,8 @@
 // Spatial IR files from `hallwright simulate`: [output] spatial_seats / spatial_per_zone, and
 // the handedness of AmbiX and binaural files in y-up and z-up models of the same room.
+#include <algorithm>
 #include <cmath>
+#include <iterator>
 #include <filesystem>
 #include <fstream>
 #include <set>
@@ -149,6 +151,53 @@ TEST_P(Handedness, SourceOnTheLeftIsLeftInAmbixAndBinaural) {
 
 INSTANTIATE_TEST_SUITE_P(YUpAndZUp, Handedness, ::testing::Values(false, true),
                          [](const auto& info) { return info.param ? "ZUp" : "YUp"; });
+
+TEST(SimulateListen, RendersEverySpatialSeatWithOneGainIntoTheReport) {
+    // A dry "recording": 0.2 s of a 440 Hz tone with a raised-cosine envelope, 44.1 kHz
+    // (resampled to the scene's 48 kHz on the way).
+    const std::string dir = test::TempDir("spatial_files/listen");
+    WavData dry;
+    dry.sampleRate = 44100;
+    for (int n = 0; n < 8820; ++n)
+        dry.samples.push_back(static_cast<float>(0.5 * (1 - std::cos(2 * M_PI * n / 8820.0)) * 0.3 *
+                                                 std::sin(2 * M_PI * 440.0 * n / 44100.0)));
+    Diagnostics diag;
+    ASSERT_TRUE(WriteWav(dir + "/dry.wav", dry, WavFormat::kFloat32, diag)) << diag.ToString();
+    const fs::path out = fs::path(dir) / "run";
+    const auto r = RunHallwright("simulate tests/data/small_box/scene.toml --rays 1000 --out " + out.string() +
+                                 " --listen " + dir + "/dry.wav");
+    ASSERT_EQ(r.exitCode, 0) << r.err;
+    EXPECT_NE(r.out.find("start playback quietly"), std::string::npos) << r.out;
+    // Two seats per zone, two zones, one source: four binaural listening files.
+    std::vector<double> peaks;
+    for (const auto& e : fs::directory_iterator(out / "listening")) {
+        auto wav = ReadWav(e.path().string(), diag);
+        ASSERT_TRUE(wav) << diag.ToString();
+        EXPECT_EQ(wav->channels, 2);
+        EXPECT_EQ(wav->sampleRate, 48000);
+        double peak = 0;
+        for (float v : wav->samples) peak = std::max(peak, std::fabs(double(v)));
+        peaks.push_back(20 * std::log10(peak));
+    }
+    ASSERT_EQ(peaks.size(), 4u);
+    // One common gain: the loudest file peaks at -1 dBFS, the others below it.
+    EXPECT_NEAR(*std::max_element(peaks.begin(), peaks.end()), -1.0, 1e-3);
+    EXPECT_LT(*std::min_element(peaks.begin(), peaks.end()), -1.5);
+    std::ifstream page(out / "report.html");
+    const std::string html((std::istreambuf_iterator<char>(page)), std::istreambuf_iterator<char>());
+    EXPECT_NE(html.find("<audio controls preload=\"none\" src=\"listening/src__front-a.wav\">"), std::string::npos);
+    EXPECT_NE(html.find("Start playback quietly"), std::string::npos);
+}
+
+TEST(SimulateListen, UnreadableDryRecordingFailsBeforeTheRun) {
+    const std::string dir = test::TempDir("spatial_files/listen_bad");
+    test::WriteFile(dir, "dry.wav", "not a wav file");
+    const auto r = RunHallwright("simulate tests/data/small_box/scene.toml --out " + dir + "/run --listen " + dir +
+                                 "/dry.wav --quiet");
+    EXPECT_NE(r.exitCode, 0);
+    EXPECT_NE(r.err.find(dir + "/dry.wav"), std::string::npos) << r.err;
+    EXPECT_FALSE(fs::exists(fs::path(dir) / "run/run.json"));
+}
 
 TEST(SpatialSeatsKey, UnknownSeatNameIsAnErrorAtItsLine) {
     const std::string dir = test::TempDir("spatial_files/bad_name");

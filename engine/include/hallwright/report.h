@@ -87,6 +87,14 @@ struct SeatCurves {
     std::vector<Band> bands;
 };
 
+/* One rendered listening file: the dry recording through a seat's IR (listening.h). */
+struct ReportListening {
+    std::string source, seat, zone;
+    std::string file;       // relative to the report (e.g. "listening/<source>__<seat>.wav")
+    std::string layout;     // "binaural-lr" (headphones) or "mono"
+    double peakDbfs = 0;    // its largest sample
+};
+
 struct ReportInput {
     std::string title;
     std::string programVersion;         // e.g. "hallwright 0.1.0"
@@ -102,6 +110,10 @@ struct ReportInput {
     std::string findingsJson;           // review.json text ({"findings": [...]}) or an array; "" = none
     std::vector<std::string> warnings;
     int raysPerSource = 0;              // for the cautions (0 = not shown)
+    /* Listening files (simulate --listen); empty = no listening section content. */
+    std::vector<ReportListening> listening;
+    std::string listeningDry;           // the dry recording's file name
+    double listeningGainDb = 0;         // the one gain applied to every listening file
 };
 
 /* Plan outline, sources and the balcony section from the model (internal frame, metres). */

@@ -1,0 +1,44 @@
+// One dry recording through several IRs with a common gain (listening.h).
+#include "hallwright/listening.h"
+
+#include <algorithm>
+#include <cmath>
+
+namespace hallwright {
+
+ListeningSet RenderListeningSet(const WavData& dry, const std::vector<WavData>& irs, double peakDbfs,
+                                Diagnostics& diag) {
+    ListeningSet set;
+    if (irs.empty()) {
+        diag.Error({}, "no impulse response to render the dry recording through");
+        return set;
+    }
+    // Each render normalised on its own first; the smallest of those gains (the loudest
+    // render) then serves all, so render i is scaled by 10^((gMin - g_i) / 20) <= 1.
+    AuralizeOptions options;
+    options.peakDbfs = peakDbfs;
+    std::vector<AuralizeResult> results;
+    for (const WavData& ir : irs) {
+        AuralizeResult r = Auralize(dry, ir, options, diag);
+        if (!r.ok) return set;
+        results.push_back(std::move(r));
+    }
+    double gainMin = results[0].gainDb;
+    for (const auto& r : results) gainMin = std::min(gainMin, r.gainDb);
+    for (auto& r : results) {
+        const float scale = static_cast<float>(std::pow(10.0, (gainMin - r.gainDb) / 20.0));
+        float peak = 0;
+        for (float& s : r.output.samples) {
+            s *= scale;
+            peak = std::max(peak, std::fabs(s));
+        }
+        set.peakDbfs.push_back(peak > 0 ? 20.0 * std::log10(peak) : -300.0);
+        set.renders.push_back(std::move(r.output));
+    }
+    set.gainDb = gainMin;
+    set.notes = results[0].notes;
+    set.ok = true;
+    return set;
+}
+
+}  // namespace hallwright
