@@ -1,6 +1,10 @@
 // kissfft real-FFT wrapper.
 #include "response/fft.h"
 
+#include <algorithm>
+#include <memory>
+#include <vector>
+
 #include <kiss_fftr.h>
 
 #include "hallwright/diagnostics.h"
@@ -39,6 +43,22 @@ void RealFft::Inverse(const std::complex<float>* in, float* out) {
     kiss_fftri(static_cast<kiss_fftr_cfg>(inverse_), reinterpret_cast<const kiss_fft_cpx*>(in), out);
     const float scale = 1.0f / static_cast<float>(size_);
     for (int i = 0; i < size_; ++i) out[i] *= scale;
+}
+
+RealFft& ThreadRealFft(int size) {
+    // A run uses a handful of sizes (the late-part grids, the specular grids); a bounded list,
+    // most recently used last, keeps memory in check if sizes keep changing. A caller may
+    // hold up to kKept - 1 plans at once (moving a unique_ptr leaves its plan in place).
+    constexpr size_t kKept = 32;
+    thread_local std::vector<std::unique_ptr<RealFft>> plans;
+    for (size_t i = 0; i < plans.size(); ++i)
+        if (plans[i]->Size() == size) {
+            std::rotate(plans.begin() + static_cast<long>(i), plans.begin() + static_cast<long>(i) + 1, plans.end());
+            return *plans.back();
+        }
+    if (plans.size() >= kKept) plans.erase(plans.begin());
+    plans.push_back(std::make_unique<RealFft>(size));
+    return *plans.back();
 }
 
 }  // namespace hallwright

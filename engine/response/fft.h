@@ -28,4 +28,8 @@ class RealFft {
     void* inverse_ = nullptr;
 };
 
+/* This thread's plan of the given size, made on first use and kept (plans cost as much as a
+   few transforms to make). Valid until the thread ends; never share it with another thread. */
+RealFft& ThreadRealFft(int size);
+
 }  // namespace hallwright

@@ -251,13 +251,137 @@ Vec3 DrawArrival(const ReceiverHistogram& hist, double t, pcg32& rng) {
     return Vec3(rxy * std::cos(phi), dy, rxy * std::sin(phi));  // atan2(z, x) = phi
 }
 
+/* The late part on decimated grids. Band b's bank magnitude is zero above its upper
+   crossover edge top_b = fc_b 2^w, so the band's signal is exactly representable on a grid of
+   step R_b samples whenever fs / (2 R_b) > top_b. Each band is therefore synthesised on its
+   own grid of M / R_b points (M the full grid): the Dirac train is brought onto it by a
+   Kaiser-windowed-sinc decimation kernel (flat to ~1e-4 up to top_b, -80 dB from
+   fs / R_b - top_b on, so nothing aliases into the band), band filtered there by the same
+   zero-phase magnitudes, energy-corrected there (the correction varies on the band's time
+   scale 8/B, far slower than the grid step), and its spectrum is placed into the full grid's
+   spectrum: one full-size inverse FFT then gives the sum of the decimated bands at the full
+   rate (exact band-limited interpolation). The top band, which reaches Nyquist, stays on the
+   full grid. */
+constexpr double kDecimationMargin = 1.25;   // fs / (2 R) >= margin * top_b
+constexpr double kDecimationStopDb = 80.0;   // kernel stop-band rejection (Kaiser beta 8)
+
+struct DecimatedBand {
+    int decimation = 1;         // R: grid step in full-rate samples
+    int size = 0;               // M / R points
+    int halfTaps = 0;           // H: grid points on each side of a Dirac
+    std::vector<float> kernel;  // [phase r][tap j], value at offset (j - H + 1) R - r samples
+    std::vector<float> mag;     // bank magnitude on bins 0 .. size / 2 (same frequencies as the full grid)
+};
+
+struct LateGrid {
+    int size = 0, sampleRate = 0;
+    Bands eps = Bands::Zero();  // eps_b on the full grid (as BankGrid)
+    std::array<DecimatedBand, kBandCount> bands;
+};
+
+/* Grid step of band b's late part: the largest 3 * 2^k with fs / (2 R) >= margin * top_b; the
+   top band (up to Nyquist) and bands too close to Nyquist stay at R = 1. */
+int LateDecimation(int band, int sampleRate) {
+    if (band == kBandCount - 1) return 1;
+    const double top = CrossoverHz(band) * std::exp2(kCrossoverHalfWidthOct);
+    int best = 1;
+    for (int r = 3; sampleRate / (2.0 * r) >= kDecimationMargin * top; r *= 2) best = r;
+    return best;
+}
+
+/* Smallest n' >= n whose factors are 2, 3 and 5 only. */
+int SmoothAtLeast(int n) {
+    for (int m = std::max(1, n);; ++m) {
+        int r = m;
+        for (int p : {2, 3, 5})
+            while (r % p == 0) r /= p;
+        if (r == 1) return m;
+    }
+}
+
+/* Full grid of at least `need` points on which every band's step divides evenly (and leaves
+   an even number of points for the real FFT). */
+int LateGridSize(int need, int sampleRate) {
+    int rMax = 1;
+    for (int b = 0; b < kBandCount; ++b) rMax = std::max(rMax, LateDecimation(b, sampleRate));
+    const int unit = 2 * rMax;
+    return unit * SmoothAtLeast((need + unit - 1) / unit);
+}
+
+std::shared_ptr<const LateGrid> MakeLateGrid(int m, int sampleRate) {
+    auto grid = std::make_shared<LateGrid>();
+    grid->size = m;
+    grid->sampleRate = sampleRate;
+    const double fs = sampleRate;
+    const int nBins = m / 2 + 1;
+    const double i0Beta = BesselI0(kKaiserBeta);
+    for (int b = 0; b < kBandCount; ++b) {
+        double sum = 0;
+        DecimatedBand& db = grid->bands[b];
+        db.decimation = LateDecimation(b, sampleRate);
+        db.size = m / db.decimation;
+        db.mag.assign(db.size / 2 + 1, 0.0f);
+        for (int i = 0; i < nBins; ++i) {
+            const double mag = SynthesisBandMagnitude(b, static_cast<double>(i) * fs / m);
+            if (i < static_cast<int>(db.mag.size())) db.mag[i] = static_cast<float>(mag);
+            sum += ((i == 0 || i == nBins - 1) ? 1.0 : 2.0) * mag * mag;  // Parseval, real spectrum
+        }
+        grid->eps[b] = sum / m;
+        const int r = db.decimation;
+        if (r == 1) continue;
+        // Kaiser design (Kaiser 1974, from memory of Oppenheim & Schafer): N = (A - 8) /
+        // (2.285 dw) taps for a transition of dw rad/sample, here from top_b to fs/R - top_b.
+        const double top = CrossoverHz(b) * std::exp2(kCrossoverHalfWidthOct);
+        const double dw = 2.0 * kPi * (fs / r - 2.0 * top) / fs;
+        const double taps = (kDecimationStopDb - 8.0) / (2.285 * dw);
+        db.halfTaps = static_cast<int>(std::ceil(taps / (2.0 * r))) + 1;
+        const int h = db.halfTaps;
+        db.kernel.assign(static_cast<size_t>(r) * 2 * h, 0.0f);
+        for (int phase = 0; phase < r; ++phase)
+            for (int j = 0; j < 2 * h; ++j) {
+                // Ideal low-pass to fs/(2R) with unit pass-band gain: sinc(x/R)/R.
+                const double x = static_cast<double>((j - h + 1) * r - phase);
+                const double u = x / (static_cast<double>(h) * r);
+                if (std::fabs(u) >= 1) continue;
+                const double window = BesselI0(kKaiserBeta * std::sqrt(1.0 - u * u)) / i0Beta;
+                const double s = x == 0 ? 1.0 : std::sin(kPi * x / r) / (kPi * x / r);
+                db.kernel[static_cast<size_t>(phase) * 2 * h + j] = static_cast<float>(s * window / r);
+            }
+    }
+    return grid;
+}
+
+/* Late grids are the same for every seat of a run: keep the few most recent ones. */
+std::shared_ptr<const LateGrid> LateGridFor(int m, int sampleRate) {
+    static std::mutex mutex;
+    static std::vector<std::shared_ptr<const LateGrid>> cache;
+    {
+        std::lock_guard<std::mutex> lock(mutex);
+        for (const auto& g : cache)
+            if (g->size == m && g->sampleRate == sampleRate) return g;
+    }
+    auto grid = MakeLateGrid(m, sampleRate);
+    std::lock_guard<std::mutex> lock(mutex);
+    if (cache.size() >= 4) cache.erase(cache.begin());
+    cache.push_back(grid);
+    return grid;
+}
+
+/* Buffers of the late part, kept per thread so that a run does not allocate (and page in)
+   megabytes per seat. */
+struct LateWorkspace {
+    std::vector<std::vector<float>> u, d, full;
+    std::vector<std::vector<std::complex<float>>> spectra;
+    std::vector<std::complex<float>> spectrum;
+    std::vector<double> target, actual, targetS, actualS, tmp;
+    std::vector<float> y, xb;
+};
+
 void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int nOut,
-                 const BankGrid& grid, const Encoder& enc, std::vector<std::vector<float>>& outs) {
+                 const LateGrid& grid, const Encoder& enc, std::vector<std::vector<float>>& outs) {
     const int channels = enc.channels;
-    RealFft fft(grid.size);
-    const std::vector<std::vector<float>>& bandMag = grid.mag;
     const Bands& eps = grid.eps;
-    const int m = fft.Size(), nBins = fft.BinCount();
+    const int m = grid.size;
     const double fs = ctx.sampleRate;
     const double samplesPerBin = fs * kBinWidthS;
     // Only bins that start inside the IR are synthesized.
@@ -328,81 +452,145 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
             enc.Gains(DrawArrival(hist, eventSample[i] / fs, dirRng), eventGain[i].data());
     }
 
-    // First and last sample of each bin.
+    // Diracs that fall on the same sample add up: one entry per sample, in time order, with
+    // its summed sign (times the channel gains).
+    std::vector<size_t> order(eventSample.size());
+    for (size_t i = 0; i < order.size(); ++i) order[i] = i;
+    std::stable_sort(order.begin(), order.end(), [&](size_t p, size_t q) { return eventSample[p] < eventSample[q]; });
+    std::vector<int> at;
+    std::vector<float> weight;  // [entry * channels + channel]
+    for (size_t i : order) {
+        if (at.empty() || at.back() != eventSample[i]) {
+            at.push_back(eventSample[i]);
+            weight.resize(weight.size() + channels, 0.0f);
+        }
+        float* w = &weight[weight.size() - channels];
+        w[0] += eventSign[i];
+        for (int ch = 1; ch < channels; ++ch) w[ch] += eventSign[i] * eventGain[i][ch];
+    }
+    const int count = static_cast<int>(at.size());
     auto binOfSample = [&](int n) { return std::min(binCount - 1, static_cast<int>(n / samplesPerBin)); };
 
-    std::vector<std::vector<float>> xs(channels, std::vector<float>(m)), ds(channels, std::vector<float>(m));
-    std::vector<float>& x = xs[0];
-    std::vector<float>& d = ds[0];
-    std::vector<std::complex<float>> spectrum(nBins);
-    std::vector<double> target(nOut), actual(nOut), targetS, actualS, tmp;
+    thread_local LateWorkspace ws;
+    ws.u.resize(channels);
+    ws.d.resize(channels);
+    ws.spectra.resize(channels);
+    const int fullBins = m / 2 + 1;
+    bool anyDecimated = false;
+    for (int ch = 0; ch < channels; ++ch) ws.spectra[ch].assign(fullBins, 0.0f);
+    std::vector<float>& xb = ws.xb;
+    std::vector<double> wantC(channels);
+
     for (int b = 0; b < kBandCount; ++b) {
         // Envelope shaping: each Dirac gets sqrt of the histogram energy interpolated
         // linearly between bin centres (smooth across bin edges, REFERENCES Part B 5.2).
-        for (auto& xc : xs) std::fill(xc.begin(), xc.end(), 0.0f);
         auto envelope = [&](int n) {
             const double pos = n / samplesPerBin - 0.5;
             int k0 = static_cast<int>(std::floor(pos));
             const double f = pos - k0;
-            auto at = [&](int k) { return mean[std::clamp(k, 0, binCount - 1) * kBandCount + b]; };
-            if (pos < 0) return at(0);
-            return (1.0 - f) * at(k0) + f * at(k0 + 1);
+            auto value = [&](int k) { return mean[std::clamp(k, 0, binCount - 1) * kBandCount + b]; };
+            if (pos < 0) return value(0);
+            return (1.0 - f) * value(k0) + f * value(k0 + 1);
         };
+        xb.assign(static_cast<size_t>(count) * channels, 0.0f);
         bool any = false;
-        for (size_t i = 0; i < eventSample.size(); ++i) {
-            const int n = eventSample[i];
-            if (mean[binOfSample(n) * kBandCount + b] <= 0) continue;
-            const float amp = eventSign[i] * static_cast<float>(std::sqrt(envelope(n)));
-            x[n] += amp;
-            for (int c = 1; c < channels; ++c) xs[c][n] += amp * eventGain[i][c];
+        for (int i = 0; i < count; ++i) {
+            if (mean[binOfSample(at[i]) * kBandCount + b] <= 0) continue;
+            const float amp = static_cast<float>(std::sqrt(envelope(at[i])));
+            for (int ch = 0; ch < channels; ++ch) xb[static_cast<size_t>(i) * channels + ch] = amp * weight[static_cast<size_t>(i) * channels + ch];
             any = true;
         }
         if (!any) continue;
         // Per-bin normalisation: the Dirac train's energy in bin k equals E_b(k) exactly.
-        for (int k = kFirst; k <= kLast; ++k) {
-            const int n0 = static_cast<int>(std::ceil(k * samplesPerBin - 1e-9));
-            const int n1 = std::min(nOut, static_cast<int>(std::ceil((k + 1) * samplesPerBin - 1e-9)));
+        for (int i0 = 0; i0 < count;) {
+            const int k = binOfSample(at[i0]);
+            int i1 = i0;
             double sum = 0;
-            for (int n = n0; n < n1; ++n) sum += static_cast<double>(x[n]) * x[n];
+            for (; i1 < count && binOfSample(at[i1]) == k; ++i1) {
+                const double x = xb[static_cast<size_t>(i1) * channels];
+                sum += x * x;
+            }
             const double want = mean[k * kBandCount + b];
             const float g = sum > 0 ? static_cast<float>(std::sqrt(want / sum)) : 0.0f;
-            for (auto& xc : xs)
-                for (int n = n0; n < n1; ++n) xc[n] *= g;
+            for (size_t j = static_cast<size_t>(i0) * channels; j < static_cast<size_t>(i1) * channels; ++j) xb[j] *= g;
+            i0 = i1;
         }
-        // Band filter (zero phase, FFT domain).
-        for (int c = 0; c < channels; ++c) {
-            fft.Forward(xs[c].data(), spectrum.data());
-            for (int i = 0; i < nBins; ++i) spectrum[i] *= bandMag[b][i];
-            fft.Inverse(spectrum.data(), ds[c].data());
+
+        const DecimatedBand& db = grid.bands[b];
+        const int r = db.decimation, mc = db.size, h = db.halfTaps;
+        const int mOut = (nOut + r - 1) / r;
+        RealFft& fft = ThreadRealFft(mc);
+        const int nBins = fft.BinCount();
+        // Target energy density per full-rate sample on this grid, and the totals.
+        ws.target.assign(mOut, 0.0);
+        double wanted = 0;
+        std::fill(wantC.begin(), wantC.end(), 0.0);
+        for (int i = 0; i < count; ++i) {
+            const double x0 = xb[static_cast<size_t>(i) * channels];
+            const double e = eps[b] * x0 * x0;
+            ws.target[std::min(mOut - 1, (at[i] + r / 2) / r)] += e / r;
+            wanted += e;
+            for (int ch = 1; ch < channels; ++ch) {
+                const double xc = xb[static_cast<size_t>(i) * channels + ch];
+                wantC[ch] += eps[b] * xc * xc;
+            }
+        }
+        // The train on this grid, band filtered (zero phase, FFT domain).
+        ws.spectrum.resize(nBins);
+        for (int ch = 0; ch < channels; ++ch) {
+            std::vector<float>& u = ws.u[ch];
+            u.assign(mc, 0.0f);
+            for (int i = 0; i < count; ++i) {
+                const float x = xb[static_cast<size_t>(i) * channels + ch];
+                if (x == 0.0f) continue;
+                const int n = at[i];
+                if (r == 1) {
+                    u[n] += x;
+                    continue;
+                }
+                const int m0 = n / r, phase = n - m0 * r;
+                const float* kern = &db.kernel[static_cast<size_t>(phase) * 2 * h];
+                int p = m0 - h + 1;
+                if (p >= 0 && p + 2 * h <= mc) {
+                    for (int j = 0; j < 2 * h; ++j) u[p + j] += x * kern[j];
+                } else {
+                    for (int j = 0; j < 2 * h; ++j) u[((p + j) % mc + mc) % mc] += x * kern[j];
+                }
+            }
+            fft.Forward(u.data(), ws.spectrum.data());
+            for (int i = 0; i < nBins; ++i) ws.spectrum[i] *= db.mag[i];
+            ws.d[ch].resize(mc);
+            fft.Inverse(ws.spectrum.data(), ws.d[ch].data());
         }
 
         // Energy correction on the band's time scale L_b = 8/B (>= 2 ms): random-sign
         // overlap of neighbouring Dirac responses makes a band's energy fluctuate by about
         // 1/sqrt(B L); the gain sqrt(smoothed expected / smoothed actual) removes that
-        // fluctuation while varying slowly enough (~B/8) to keep the band limits.
+        // fluctuation while varying slowly enough (~B/8) to keep the band limits. Computed on
+        // the band's grid (R samples per point, R << L).
         const double bandwidth = BandUpperEdgeHz(b) - BandLowerEdgeHz(b);
-        const int width = std::max(3, static_cast<int>(std::max(kMinCorrectionWindowS,
-                                                                kCorrectionBandwidthPeriods / bandwidth) *
-                                                       fs / 2));
-        for (int n = 0; n < nOut; ++n) {
-            target[n] = eps[b] * static_cast<double>(x[n]) * x[n];
-            actual[n] = static_cast<double>(d[n]) * d[n];
-        }
+        const int widthFull = std::max(3, static_cast<int>(std::max(kMinCorrectionWindowS,
+                                                                    kCorrectionBandwidthPeriods / bandwidth) *
+                                                           fs / 2));
+        const int width = r == 1 ? widthFull : std::max(3, static_cast<int>(std::lround(static_cast<double>(widthFull) / r)));
+        const std::vector<float>& d = ws.d[0];
+        ws.actual.resize(mOut);
+        for (int n = 0; n < mOut; ++n) ws.actual[n] = static_cast<double>(d[n]) * d[n];
         // Triangular window of length 2*width: two box passes.
-        BoxSmooth(target, width, tmp);
-        BoxSmooth(tmp, width, targetS);
-        BoxSmooth(actual, width, tmp);
-        BoxSmooth(tmp, width, actualS);
-        std::vector<double>& gain = tmp;
-        double wanted = 0, achieved = 0;
-        for (int n = 0; n < nOut; ++n) {
+        BoxSmooth(ws.target, width, ws.tmp);
+        BoxSmooth(ws.tmp, width, ws.targetS);
+        BoxSmooth(ws.actual, width, ws.tmp);
+        BoxSmooth(ws.tmp, width, ws.actualS);
+        std::vector<double>& gain = ws.tmp;
+        double achieved = 0;
+        for (int n = 0; n < mOut; ++n) {
             double g = 1.0;
-            if (actualS[n] > 1e-300 && targetS[n] > 1e-300)
-                g = std::clamp(std::sqrt(targetS[n] / actualS[n]), 0.25, 4.0);
+            if (ws.actualS[n] > 1e-300 && ws.targetS[n] > 1e-300)
+                g = std::clamp(std::sqrt(ws.targetS[n] / ws.actualS[n]), 0.25, 4.0);
             gain[n] = g;
-            wanted += target[n];
-            achieved += g * g * actual[n];
+            achieved += g * g * ws.actual[n];
         }
+        achieved *= r;
         // The ratio gain is biased low (a local excess of d^2 also raises its own smoothed
         // denominator), by a factor set by B L alone: one scalar per band restores the
         // band's total energy exactly.
@@ -411,18 +599,43 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
         // directional channel's own overlap terms are independent of the omni's (their
         // products carry y_i y_j of either sign), so the gain raises its energy by the mean
         // of g^2 (> 1): one scalar per channel and band restores its expected total.
-        for (int c = 0; c < channels; ++c) {
+        for (int ch = 0; ch < channels; ++ch) {
+            const std::vector<float>& dc = ws.d[ch];
             double fixC = fix;
-            if (c > 0) {
-                double want = 0, got = 0;
-                for (int n = 0; n < nOut; ++n) {
-                    want += eps[b] * static_cast<double>(xs[c][n]) * xs[c][n];
-                    got += gain[n] * gain[n] * static_cast<double>(ds[c][n]) * ds[c][n];
-                }
-                fixC = got > 0 ? std::sqrt(want / got) : 1.0;
+            if (ch > 0) {
+                double got = 0;
+                for (int n = 0; n < mOut; ++n) got += gain[n] * gain[n] * static_cast<double>(dc[n]) * dc[n];
+                got *= r;
+                fixC = got > 0 ? std::sqrt(wantC[ch] / got) : 1.0;
             }
-            for (int n = 0; n < nOut; ++n) outs[c][n] += static_cast<float>(fixC * gain[n] * ds[c][n]);
+            if (r == 1) {
+                for (int n = 0; n < nOut; ++n) outs[ch][n] += static_cast<float>(fixC * gain[n] * dc[n]);
+                continue;
+            }
+            // Past the IR (ring-out, and the pre-ringing wrapped to the grid's end) the edge
+            // gains continue, so the interpolation to the full rate stays smooth at both ends.
+            ws.y.resize(mc);
+            const int split = (mOut + mc) / 2;
+            for (int n = 0; n < mc; ++n) {
+                const double g = n < mOut ? gain[n] : gain[n < split ? mOut - 1 : 0];
+                ws.y[n] = static_cast<float>(fixC * g * dc[n]);
+            }
+            fft.Forward(ws.y.data(), ws.spectrum.data());
+            // Band-limited interpolation: the grid's spectrum (times R) into the full grid's.
+            std::vector<std::complex<float>>& full = ws.spectra[ch];
+            const float scale = static_cast<float>(r);
+            for (int i = 0; i < nBins - 1; ++i) full[i] += scale * ws.spectrum[i];
+            full[nBins - 1] += 0.5f * scale * ws.spectrum[nBins - 1];
+            anyDecimated = true;
         }
+    }
+    if (!anyDecimated) return;
+    RealFft& fullFft = ThreadRealFft(m);
+    ws.full.resize(1);
+    ws.full[0].resize(m);
+    for (int ch = 0; ch < channels; ++ch) {
+        fullFft.Inverse(ws.spectra[ch].data(), ws.full[0].data());
+        for (int n = 0; n < nOut; ++n) outs[ch][n] += ws.full[0][n];
     }
 }
 
@@ -558,7 +771,8 @@ ImpulseResponse SynthesizeEncoded(const ReceiverPaths& specular, const ReceiverH
     const double fs = context.sampleRate;
     const int nOut = std::max(1, static_cast<int>(std::ceil(lengthS * fs)));
     const int pad = static_cast<int>(std::ceil(kPadS * fs));
-    const std::shared_ptr<const BankGrid> grid = BankGridFor(FastRealFftSize(nOut + 2 * pad), context.sampleRate);
+    const std::shared_ptr<const LateGrid> grid = LateGridFor(LateGridSize(nOut + 2 * pad, context.sampleRate),
+                                                             context.sampleRate);
     ir.bandEnergyOfUnitDirac = grid->eps;
 
     std::vector<std::vector<float>> outs(enc.channels, std::vector<float>(nOut, 0.0f));
