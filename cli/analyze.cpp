@@ -181,10 +181,19 @@ const bool kRegistered = hwcli::AddCommand(
             if (a->channels == "binaural") opt.layout = hw::ChannelLayout::kBinaural;
             if (sidecar && sidecar->sourceAzimuthDeg) opt.sourceAzimuthDeg = *sidecar->sourceAzimuthDeg;
             if (a->haveAzimuth) opt.sourceAzimuthDeg = a->sourceAzimuth;
-            if (sidecar && sidecar->referenceEnergy) opt.referenceEnergy = sidecar->referenceEnergy;
+            // A binaural file's level follows the HRTF set's normalisation (response.h), so its
+            // sidecar's reference energy does not define G, whatever layout it is analysed as.
+            const bool binauralFile = sidecar && sidecar->layout == hw::ChannelLayout::kBinaural;
+            if (sidecar && sidecar->referenceEnergy && !binauralFile) opt.referenceEnergy = sidecar->referenceEnergy;
             if (a->haveReference) opt.referenceEnergy = a->referenceEnergy;
 
-            hw::ParameterTable table = hw::ParametersFromWav(*wav, opt, diag);
+            hw::Diagnostics analysis;
+            hw::ParameterTable table = hw::ParametersFromWav(*wav, opt, analysis);
+            for (const auto& d : analysis.Items()) {  // the engine does not know the file name
+                hw::SourceLoc at = d.at;
+                if (at.file.empty()) at.file = a->file;
+                diag.Add(d.severity, at, d.message);
+            }
             if (diag.HasErrors()) return hwcli::Report(diag);
             if (sidecar && !sidecar->azimuthNote.empty() && opt.layout == hw::ChannelLayout::kAmbix && !a->haveAzimuth)
                 table.notes.push_back("source azimuth from the sidecar: " + sidecar->azimuthNote);
@@ -195,7 +204,10 @@ const bool kRegistered = hwcli::AddCommand(
             std::printf("%s: %d Hz, %d channel(s), %.3f s, layout %s, time zero %.2f ms%s\n", a->file.c_str(),
                         wav->sampleRate, wav->channels, double(wav->FrameCount()) / wav->sampleRate, layoutName,
                         table.timeZeroS * 1000, sidecar ? ", sidecar read" : "");
-            if (!opt.referenceEnergy) std::printf("G not computed: no sidecar and no --reference-energy\n");
+            if (!opt.referenceEnergy)
+                std::printf(binauralFile ? "G not computed: a binaural file's level follows its HRTF set "
+                                           "(give --reference-energy to force it)\n"
+                                         : "G not computed: no sidecar and no --reference-energy\n");
             std::printf("\n");
             PrintTable(table, opt.bands);
 

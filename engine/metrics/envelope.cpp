@@ -351,17 +351,25 @@ BandParameters ComputeBandParameters(const BandInput& bi) {
     out.t20 = t20.t, out.t20R = t20.r, out.t20Note = t20.note;
     out.t30 = t30.t, out.t30R = t30.r, out.t30Note = t30.note;
 
-    // Energy ratios and centre time, integrated from t0 over exact times.
-    const double e50 = in.Energy(t0, t0 + 0.050), e80 = in.Energy(t0, t0 + 0.080);
-    const double late50 = in.EnergyAfter(t0 + 0.050), late80 = in.EnergyAfter(t0 + 0.080);
-    if (bi.endS < t0 + 0.080) {
+    // Energy ratios and centre time, integrated from t0 over exact times. The limits sit at
+    // tl + 50 / 80 ms with tl = t0 + limitOffsetS: an analysis filter delays every arrival by
+    // its energy delay, so without the offset a WAV path would count a share of the energy
+    // arriving just before t0 + 50 ms as late (and add the delay to Ts) that the ideal band
+    // response (the histogram) counts as early (ISO 3382-1 A.2.3-A.2.5 define the limits on
+    // the arrival times of the response, not of the filter output).
+    const EnvelopeIntegrator er(bi.ratios ? *bi.ratios : *bi.omni);
+    const double tl = t0 + bi.limitOffsetS;
+    const double er0 = er.EnergyAfter(t0);
+    const double e50 = er.Energy(t0, tl + 0.050), e80 = er.Energy(t0, tl + 0.080);
+    const double late50 = er.EnergyAfter(tl + 0.050), late80 = er.EnergyAfter(tl + 0.080);
+    if (bi.endS < tl + 0.080) {
         out.energyNote = "the record ends before t0 + 80 ms";
     } else {
         if (late50 > 0 && e50 > 0) out.c50 = 10.0 * std::log10(e50 / late50);
         if (late80 > 0 && e80 > 0) out.c80 = 10.0 * std::log10(e80 / late80);
-        out.d50 = e50 / e0;
-        if (out.decayEndDb <= -20.0)
-            out.ts = (in.TotalMoment() - in.MomentBefore(t0)) / e0 - t0;
+        if (er0 > 0) out.d50 = e50 / er0;
+        if (out.decayEndDb <= -20.0 && er0 > 0)
+            out.ts = (er.TotalMoment() - er.MomentBefore(t0)) / er0 - tl;
         else
             out.energyNote = "Ts needs the decay curve to reach -20 dB before the record ends";
     }
@@ -373,20 +381,20 @@ BandParameters ComputeBandParameters(const BandInput& bi) {
     // Lateral fractions J_LF, J_LFC over [t0 + 5 ms, t0 + 80 ms) (ISO 3382-1 A.2.2).
     if (!bi.lateralSq || !bi.lateralAbs) {
         out.lateralNote = "no lateral (figure-of-eight) record";
-    } else if (t0 + 0.005 < bi.lateralValidFromS - 1e-12 || t0 + 0.080 > bi.lateralValidToS + 1e-12) {
+    } else if (tl + 0.005 < bi.lateralValidFromS - 1e-12 || tl + 0.080 > bi.lateralValidToS + 1e-12) {
         out.lateralNote = "the lateral record does not cover t0 + 5 ms ... t0 + 80 ms";
     } else if (e80 > 0) {
         const EnvelopeIntegrator sq(*bi.lateralSq), ab(*bi.lateralAbs);
-        out.lf = sq.Energy(t0 + 0.005, t0 + 0.080) / e80;
-        out.lfc = ab.Energy(t0 + 0.005, t0 + 0.080) / e80;
+        out.lf = sq.Energy(tl + 0.005, tl + 0.080) / e80;
+        out.lfc = ab.Energy(tl + 0.005, tl + 0.080) / e80;
     }
 
     // Modulation transfer (Schroeder 1981) over the whole response, for STI.
     double omega[kModulationCount];
     std::complex<double> spectrum[kModulationCount];
     for (int f = 0; f < kModulationCount; ++f) omega[f] = 2.0 * M_PI * kModulationHz[f];
-    in.FourierMany(omega, kModulationCount, spectrum);
-    for (int f = 0; f < kModulationCount; ++f) out.mtf[f] = std::abs(spectrum[f]) / out.totalEnergy;
+    er.FourierMany(omega, kModulationCount, spectrum);
+    for (int f = 0; f < kModulationCount; ++f) out.mtf[f] = std::abs(spectrum[f]) / er.Total();
     return out;
 }
 

@@ -86,4 +86,14 @@ double OctaveFilter::DiracEnergy() const {
     return e;
 }
 
+double OctaveFilter::EnergyDelayS() const {
+    const size_t n = static_cast<size_t>(std::max(4096.0, 0.5 * sampleRate_));
+    std::vector<double> d(n, 0.0);
+    d[0] = 1.0;
+    double e = 0, m = 0;
+    const std::vector<double> h = Apply(d);
+    for (size_t i = 0; i < h.size(); ++i) e += h[i] * h[i], m += static_cast<double>(i) * h[i] * h[i];
+    return e > 0 ? m / e / sampleRate_ : 0.0;
+}
+
 }  // namespace hallwright

@@ -160,6 +160,14 @@ struct BandInput {
     double gridS = kBinWidthS;
     double referenceEnergy = 0;
     double lateralValidFromS = -1e300, lateralValidToS = 1e300;  // span covered by the record
+    /* Envelope for the energy ratios, Ts, LF/LFC denominators and the MTF (default: omni).
+       The histogram path gives its specular arrivals here at their exact times, while
+       `omni` (decay curves) sees them through the analysis filter. */
+    const EnergyEnvelope* ratios = nullptr;
+    /* Delay added to the 5/50/80 ms limits and to Ts's time origin: the WAV path's
+       analysis-filter energy delay (every arrival, direct or late, reaches the band output
+       that much later). 0 for the histogram path. */
+    double limitOffsetS = 0;
 };
 
 /* Computes the parameters of one band from its envelope(s). */

@@ -30,6 +30,9 @@ class OctaveFilter {
     std::vector<double> Apply(const std::vector<double>& x, bool timeReversed = false) const;
     /* Energy sum_n h(n)^2 of the filter's response to a unit Dirac (white-input share). */
     double DiracEnergy() const;
+    /* Energy centroid sum_n n h(n)^2 / sum_n h(n)^2 of the Dirac response, in seconds: how
+       much later the filter output carries an arrival's energy (forward filtering). */
+    double EnergyDelayS() const;
     int Band() const { return band_; }
     int SampleRate() const { return sampleRate_; }
 
