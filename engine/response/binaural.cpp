@@ -2,7 +2,10 @@
 // late part decoded from first-order AmbiX to eight virtual sources, each through its HRIRs.
 #include <cmath>
 #include <complex>
+#include <memory>
 #include <mutex>
+#include <utility>
+#include <vector>
 
 #include <mysofa.h>
 
@@ -16,6 +19,10 @@ struct HrtfSet::Impl {
     MYSOFA_EASY* easy = nullptr;
     int filterLength = 0;
     mutable std::mutex mutex;  // libmysofa's lookup writes into a scratch buffer
+    /* Decoder filters of the late part per FFT size (see SynthesizeBinaural): for each
+       size, [ear * 4 + channel][bin]. Every seat of a run uses the same size. */
+    mutable std::mutex decoderMutex;
+    mutable std::vector<std::pair<int, std::shared_ptr<const std::vector<std::vector<std::complex<float>>>>>> decoders;
 };
 
 HrtfSet::HrtfSet() : impl_(std::make_unique<Impl>()) {}
@@ -50,6 +57,56 @@ void HrtfSet::Filter(const Vec3& headDir, std::vector<float>& left, std::vector<
                            static_cast<float>(headDir.z()), left.data(), right.data(), &dl, &dr);
     delayLeftS = dl;
     delayRightS = dr;
+}
+
+std::shared_ptr<const std::vector<std::vector<std::complex<float>>>> HrtfSet::DecoderFilters(int fftSize,
+                                                                                           double sampleRate) const {
+    {
+        std::lock_guard<std::mutex> lock(impl_->decoderMutex);
+        for (const auto& [size, filters] : impl_->decoders)
+            if (size == fftSize) return filters;
+    }
+    // Basic (sampling) first-order decoder on the cube's corners, a spherical 3-design
+    // whose elevations (+-35.3 degrees) stay inside the range HRTF sets measure (MIT KEMAR
+    // stops at -40 degrees; a virtual source straight below would get a wrong, lopsided
+    // HRIR): virtual source k gets (1/8)(W + 3 d_k . (X, Y, Z)) (SN3D first order
+    // reconstructs a plane wave as 1 + 3 cos(angle)); each goes through its HRIR pair.
+    RealFft fft(fftSize);
+    const int m = fft.Size(), bins = fft.BinCount();
+    auto filters = std::make_shared<std::vector<std::vector<std::complex<float>>>>(
+        8, std::vector<std::complex<float>>(bins, 0.0f));
+    std::vector<float> buf(m);
+    std::vector<std::complex<float>> h(bins);
+    for (int sx : {-1, 1})
+        for (int sy : {-1, 1})
+            for (int sz : {-1, 1}) {
+                const Vec3 d = Vec3(sx, sy, sz) / std::sqrt(3.0);
+                // ACN order W, Y, Z, X; d in head coordinates (x front, y left, z up).
+                const double share[4] = {1.0 / 8, 3.0 * d.y() / 8, 3.0 * d.z() / 8, 3.0 * d.x() / 8};
+                std::vector<float> l, r;
+                double dl = 0, dr = 0;
+                Filter(d, l, r, dl, dr);
+                for (int ear = 0; ear < 2; ++ear) {
+                    std::fill(buf.begin(), buf.end(), 0.0f);
+                    const std::vector<float>& hrir = ear == 0 ? l : r;
+                    std::copy(hrir.begin(), hrir.end(), buf.begin());
+                    fft.Forward(buf.data(), h.data());
+                    const double delay = (ear == 0 ? dl : dr) * sampleRate;  // samples, as a phase ramp
+                    for (int i = 0; i < bins; ++i) {
+                        const double w = -2.0 * 3.14159265358979323846 * i * delay / m;
+                        const std::complex<double> hd =
+                            std::complex<double>(h[i]) * std::complex<double>(std::cos(w), std::sin(w));
+                        for (int c = 0; c < 4; ++c)
+                            (*filters)[ear * 4 + c][i] += std::complex<float>(share[c] * hd);
+                    }
+                }
+            }
+    std::lock_guard<std::mutex> lock(impl_->decoderMutex);
+    for (const auto& [size, existing] : impl_->decoders)
+        if (size == fftSize) return existing;  // another thread made it meanwhile (same values)
+    if (impl_->decoders.size() >= 4) impl_->decoders.erase(impl_->decoders.begin());
+    impl_->decoders.emplace_back(fftSize, filters);
+    return filters;
 }
 
 namespace {
@@ -94,54 +151,38 @@ ImpulseResponse SynthesizeBinaural(const ReceiverPaths& specular, const Receiver
     // Specular: each path through the HRIR pair of its head-frame direction, with the set's
     // broadband delays (SOFA Data.Delay) added to the path delay.
     auto headOf = [&](const Vec3& d) { return Vec3(d.dot(front), d.dot(left), d.dot(up)); };
+    const size_t pathCount = specular.paths.size();
+    std::vector<std::vector<float>> hrirs[2] = {std::vector<std::vector<float>>(pathCount),
+                                                std::vector<std::vector<float>>(pathCount)};
+    std::vector<double> hrirDelay[2] = {std::vector<double>(pathCount), std::vector<double>(pathCount)};
+    for (size_t i = 0; i < pathCount; ++i)
+        hrtf.Filter(headOf(specular.paths[i].arrivalFrom), hrirs[0][i], hrirs[1][i], hrirDelay[0][i], hrirDelay[1][i]);
     for (int ear = 0; ear < 2; ++ear) {
         AddSpecularKernelPart(specular, context, nOut, [&](const SpecularPath& p, std::vector<float>& k, double& extra) {
-            std::vector<float> l, r;
-            double dl = 0, dr = 0;
-            hrtf.Filter(headOf(p.arrivalFrom), l, r, dl, dr);
-            k = ear == 0 ? l : r;
-            extra = ear == 0 ? dl : dr;
+            const size_t i = static_cast<size_t>(&p - specular.paths.data());
+            k = hrirs[ear][i];
+            extra = hrirDelay[ear][i];
         }, ears[ear]);
     }
 
-    // Late: basic (sampling) first-order decoder on the cube's corners, a spherical 3-design
-    // whose elevations (+-35.3 degrees) stay inside the range HRTF sets measure (MIT KEMAR
-    // stops at -40 degrees; a virtual source straight below would get a wrong, lopsided
-    // HRIR): virtual source k gets (1/8)(W + 3 d_k . (X, Y, Z)) (SN3D first order
-    // reconstructs a plane wave as 1 + 3 cos(angle)); each goes through its HRIR pair by FFT
-    // convolution.
-    std::vector<Vec3> dirs;
-    for (int sx : {-1, 1})
-        for (int sy : {-1, 1})
-            for (int sz : {-1, 1}) dirs.push_back(Vec3(sx, sy, sz) / std::sqrt(3.0));
+    // Late: the basic first-order decoder on the cube's corners (DecoderFilters). It is linear, so the eight HRIR pairs fold into one filter per AmbiX channel
+    // and ear, A[ear][c] = sum_k (1/8) s_c(d_k) H_k,ear e^{-j w delay_k,ear} with s = (1, 3 d.y,
+    // 3 d.z, 3 d.x): four FFTs of the channels and two inverse FFTs per seat.
     const int len = hrtf.FilterLength();
-    RealFft fft(FastRealFftSize(nOut + len + static_cast<int>(0.01 * fs)));
+    RealFft& fft = ThreadRealFft(FastRealFftSize(nOut + len + static_cast<int>(0.01 * fs)));
     const int m = fft.Size(), bins = fft.BinCount();
+    const auto decoder = hrtf.DecoderFilters(m, fs);
     std::vector<std::complex<float>> sum[2] = {std::vector<std::complex<float>>(bins, 0.0f),
                                                std::vector<std::complex<float>>(bins, 0.0f)};
     std::vector<float> buf(m);
-    std::vector<std::complex<float>> sig(bins), h(bins);
-    for (const Vec3& d : dirs) {
+    std::vector<std::complex<float>> sig(bins);
+    for (int c = 0; c < 4; ++c) {
         std::fill(buf.begin(), buf.end(), 0.0f);
-        for (int n = 0; n < nOut; ++n) {
-            const float* s = &late.samples[static_cast<size_t>(n) * 4];
-            // ACN order W, Y, Z, X; d in head coordinates (x front, y left, z up).
-            buf[n] = static_cast<float>((s[0] + 3.0 * (d.x() * s[3] + d.y() * s[1] + d.z() * s[2])) / 8.0);
-        }
+        for (int n = 0; n < nOut; ++n) buf[n] = late.samples[static_cast<size_t>(n) * 4 + c];
         fft.Forward(buf.data(), sig.data());
-        std::vector<float> l, r;
-        double dl = 0, dr = 0;
-        hrtf.Filter(d, l, r, dl, dr);
         for (int ear = 0; ear < 2; ++ear) {
-            std::fill(buf.begin(), buf.end(), 0.0f);
-            const std::vector<float>& hrir = ear == 0 ? l : r;
-            std::copy(hrir.begin(), hrir.end(), buf.begin());
-            fft.Forward(buf.data(), h.data());
-            const double delay = (ear == 0 ? dl : dr) * fs;  // samples, applied as a phase ramp
-            for (int i = 0; i < bins; ++i) {
-                const double w = -2.0 * 3.14159265358979323846 * i * delay / m;
-                sum[ear][i] += sig[i] * h[i] * std::complex<float>(static_cast<float>(std::cos(w)), static_cast<float>(std::sin(w)));
-            }
+            const std::vector<std::complex<float>>& a = (*decoder)[ear * 4 + c];
+            for (int i = 0; i < bins; ++i) sum[ear][i] += sig[i] * a[i];
         }
     }
     for (int ear = 0; ear < 2; ++ear) {

@@ -112,47 +112,6 @@ void BoxSmooth(const std::vector<double>& in, int width, std::vector<double>& ou
     }
 }
 
-/* The bank on one FFT grid: magnitudes per band and eps_b = sum_n h_b(n)^2. */
-struct BankGrid {
-    int size = 0, sampleRate = 0;
-    std::vector<std::vector<float>> mag;  // [band][bin]
-    Bands eps = Bands::Zero();
-};
-
-std::shared_ptr<const BankGrid> MakeBankGrid(int m, int sampleRate) {
-    auto grid = std::make_shared<BankGrid>();
-    grid->size = m;
-    grid->sampleRate = sampleRate;
-    const int nBins = m / 2 + 1;
-    grid->mag.assign(kBandCount, std::vector<float>(nBins));
-    for (int b = 0; b < kBandCount; ++b) {
-        double sum = 0;
-        for (int i = 0; i < nBins; ++i) {
-            const double mag = SynthesisBandMagnitude(b, static_cast<double>(i) * sampleRate / m);
-            grid->mag[b][i] = static_cast<float>(mag);
-            sum += ((i == 0 || i == nBins - 1) ? 1.0 : 2.0) * mag * mag;  // Parseval, real spectrum
-        }
-        grid->eps[b] = sum / m;
-    }
-    return grid;
-}
-
-/* Grids are the same for every seat of a run: keep the few most recent ones. */
-std::shared_ptr<const BankGrid> BankGridFor(int m, int sampleRate) {
-    static std::mutex mutex;
-    static std::vector<std::shared_ptr<const BankGrid>> cache;
-    {
-        std::lock_guard<std::mutex> lock(mutex);
-        for (const auto& g : cache)
-            if (g->size == m && g->sampleRate == sampleRate) return g;
-    }
-    auto grid = MakeBankGrid(m, sampleRate);
-    std::lock_guard<std::mutex> lock(mutex);
-    if (cache.size() >= 4) cache.erase(cache.begin());
-    cache.push_back(grid);
-    return grid;
-}
-
 /* Validates the inputs; false with an error naming the problem. */
 bool Validate(const ReceiverPaths& paths, const ReceiverHistogram& hist,
               const SynthesisContext& ctx, Diagnostics& diag) {
@@ -263,13 +222,19 @@ Vec3 DrawArrival(const ReceiverHistogram& hist, double t, pcg32& rng) {
    rate (exact band-limited interpolation). The top band, which reaches Nyquist, stays on the
    full grid. */
 constexpr double kDecimationMargin = 1.25;   // fs / (2 R) >= margin * top_b
-constexpr double kDecimationStopDb = 80.0;   // kernel stop-band rejection (Kaiser beta 8)
+/* Kernel stop-band rejection: 80 dB for the late part (noise whose band energies are
+   checked to 0.2 dB), 120 dB for the specular part, whose group delay must hold to 1/100
+   sample (a -80 dB alias moves it by a few 1/100 at 63-500 Hz). */
+constexpr double kLateStopDb = 80.0;
+constexpr double kSpecularStopDb = 120.0;
 
 struct DecimatedBand {
     int decimation = 1;         // R: grid step in full-rate samples
     int size = 0;               // M / R points
     int halfTaps = 0;           // H: grid points on each side of a Dirac
     std::vector<float> kernel;  // [phase r][tap j], value at offset (j - H + 1) R - r samples
+    int sharpHalfTaps = 0;      // the same for the specular part's sharper kernel
+    std::vector<float> sharpKernel;
     std::vector<float> mag;     // bank magnitude on bins 0 .. size / 2 (same frequencies as the full grid)
 };
 
@@ -308,13 +273,54 @@ int LateGridSize(int need, int sampleRate) {
     return unit * SmoothAtLeast((need + unit - 1) / unit);
 }
 
+/* Grid of the specular part: at least `need` points, rounded up to c 2^k (c = 16, 18, 20,
+   24, 27, 30: at most 20 % more) times the late grids' unit, so that seats share grids. */
+int SpecularGridSize(int need, int sampleRate) {
+    int rMax = 1;
+    for (int b = 0; b < kBandCount; ++b) rMax = std::max(rMax, LateDecimation(b, sampleRate));
+    const int unit = 2 * rMax;
+    const int q = (need + unit - 1) / unit;
+    int best = SmoothAtLeast(q);
+    if (q > 16) {
+        best = 0;
+        for (int c : {16, 18, 20, 24, 27, 30}) {
+            long v = c;
+            while (v < q) v *= 2;
+            if (best == 0 || v < best) best = static_cast<int>(v);
+        }
+    }
+    return unit * best;
+}
+
+/* Decimation kernel for step r: ideal low-pass to fs/(2r) (sinc(x/r)/r, unit pass-band gain)
+   under a Kaiser window; N = (A - 8) / (2.285 dw) taps and beta = 0.1102 (A - 8.7) for a
+   rejection of A dB over a transition of dw rad/sample, here from top to fs/r - top (Kaiser
+   1974, from memory of Oppenheim & Schafer, Discrete-Time Signal Processing). */
+void MakeDecimationKernel(int r, double top, double fs, double stopDb, int& halfTaps, std::vector<float>& kernel) {
+    const double beta = 0.1102 * (stopDb - 8.7);
+    const double i0Beta = BesselI0(beta);
+    const double dw = 2.0 * kPi * (fs / r - 2.0 * top) / fs;
+    const double taps = (stopDb - 8.0) / (2.285 * dw);
+    halfTaps = static_cast<int>(std::ceil(taps / (2.0 * r))) + 1;
+    const int h = halfTaps;
+    kernel.assign(static_cast<size_t>(r) * 2 * h, 0.0f);
+    for (int phase = 0; phase < r; ++phase)
+        for (int j = 0; j < 2 * h; ++j) {
+            const double x = static_cast<double>((j - h + 1) * r - phase);
+            const double u = x / (static_cast<double>(h) * r);
+            if (std::fabs(u) >= 1) continue;
+            const double window = BesselI0(beta * std::sqrt(1.0 - u * u)) / i0Beta;
+            const double s = x == 0 ? 1.0 : std::sin(kPi * x / r) / (kPi * x / r);
+            kernel[static_cast<size_t>(phase) * 2 * h + j] = static_cast<float>(s * window / r);
+        }
+}
+
 std::shared_ptr<const LateGrid> MakeLateGrid(int m, int sampleRate) {
     auto grid = std::make_shared<LateGrid>();
     grid->size = m;
     grid->sampleRate = sampleRate;
     const double fs = sampleRate;
     const int nBins = m / 2 + 1;
-    const double i0Beta = BesselI0(kKaiserBeta);
     for (int b = 0; b < kBandCount; ++b) {
         double sum = 0;
         DecimatedBand& db = grid->bands[b];
@@ -329,24 +335,9 @@ std::shared_ptr<const LateGrid> MakeLateGrid(int m, int sampleRate) {
         grid->eps[b] = sum / m;
         const int r = db.decimation;
         if (r == 1) continue;
-        // Kaiser design (Kaiser 1974, from memory of Oppenheim & Schafer): N = (A - 8) /
-        // (2.285 dw) taps for a transition of dw rad/sample, here from top_b to fs/R - top_b.
         const double top = CrossoverHz(b) * std::exp2(kCrossoverHalfWidthOct);
-        const double dw = 2.0 * kPi * (fs / r - 2.0 * top) / fs;
-        const double taps = (kDecimationStopDb - 8.0) / (2.285 * dw);
-        db.halfTaps = static_cast<int>(std::ceil(taps / (2.0 * r))) + 1;
-        const int h = db.halfTaps;
-        db.kernel.assign(static_cast<size_t>(r) * 2 * h, 0.0f);
-        for (int phase = 0; phase < r; ++phase)
-            for (int j = 0; j < 2 * h; ++j) {
-                // Ideal low-pass to fs/(2R) with unit pass-band gain: sinc(x/R)/R.
-                const double x = static_cast<double>((j - h + 1) * r - phase);
-                const double u = x / (static_cast<double>(h) * r);
-                if (std::fabs(u) >= 1) continue;
-                const double window = BesselI0(kKaiserBeta * std::sqrt(1.0 - u * u)) / i0Beta;
-                const double s = x == 0 ? 1.0 : std::sin(kPi * x / r) / (kPi * x / r);
-                db.kernel[static_cast<size_t>(phase) * 2 * h + j] = static_cast<float>(s * window / r);
-            }
+        MakeDecimationKernel(r, top, fs, kLateStopDb, db.halfTaps, db.kernel);
+        MakeDecimationKernel(r, top, fs, kSpecularStopDb, db.sharpHalfTaps, db.sharpKernel);
     }
     return grid;
 }
@@ -362,7 +353,7 @@ std::shared_ptr<const LateGrid> LateGridFor(int m, int sampleRate) {
     }
     auto grid = MakeLateGrid(m, sampleRate);
     std::lock_guard<std::mutex> lock(mutex);
-    if (cache.size() >= 4) cache.erase(cache.begin());
+    if (cache.size() >= 12) cache.erase(cache.begin());
     cache.push_back(grid);
     return grid;
 }
@@ -373,7 +364,7 @@ struct LateWorkspace {
     std::vector<std::vector<float>> u, d, full;
     std::vector<std::vector<std::complex<float>>> spectra;
     std::vector<std::complex<float>> spectrum;
-    std::vector<double> target, actual, targetS, actualS, tmp;
+    std::vector<double> target, actual, targetB, actualB, targetS, actualS, tmp, gain;
     std::vector<float> y, xb;
 };
 
@@ -576,20 +567,49 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
         const std::vector<float>& d = ws.d[0];
         ws.actual.resize(mOut);
         for (int n = 0; n < mOut; ++n) ws.actual[n] = static_cast<double>(d[n]) * d[n];
-        // Triangular window of length 2*width: two box passes.
-        BoxSmooth(ws.target, width, ws.tmp);
-        BoxSmooth(ws.tmp, width, ws.targetS);
-        BoxSmooth(ws.actual, width, ws.tmp);
-        BoxSmooth(ws.tmp, width, ws.actualS);
-        std::vector<double>& gain = ws.tmp;
-        double achieved = 0;
-        for (int n = 0; n < mOut; ++n) {
-            double g = 1.0;
-            if (ws.actualS[n] > 1e-300 && ws.targetS[n] > 1e-300)
-                g = std::clamp(std::sqrt(ws.targetS[n] / ws.actualS[n]), 0.25, 4.0);
-            gain[n] = g;
-            achieved += g * g * ws.actual[n];
+        // On the full grid the gain is computed on blocks of D samples (still >= 6 blocks per
+        // box, so the window's shape is kept) and interpolated linearly between block centres.
+        const int block = r == 1 ? std::max(1, width / 6) : 1;
+        const int blocks = (mOut + block - 1) / block;
+        const int widthB = block == 1 ? width : std::max(3, static_cast<int>(std::lround(static_cast<double>(width) / block)));
+        std::vector<double>& gain = ws.gain;
+        if (block == 1) {
+            ws.targetB.assign(ws.target.begin(), ws.target.end());
+            ws.actualB.assign(ws.actual.begin(), ws.actual.end());
+        } else {
+            ws.targetB.assign(blocks, 0.0);
+            ws.actualB.assign(blocks, 0.0);
+            for (int n = 0; n < mOut; ++n) {
+                ws.targetB[n / block] += ws.target[n];
+                ws.actualB[n / block] += ws.actual[n];
+            }
         }
+        // Triangular window of length 2*width: two box passes.
+        BoxSmooth(ws.targetB, widthB, ws.tmp);
+        BoxSmooth(ws.tmp, widthB, ws.targetS);
+        BoxSmooth(ws.actualB, widthB, ws.tmp);
+        BoxSmooth(ws.tmp, widthB, ws.actualS);
+        for (int k = 0; k < blocks; ++k) {
+            double g = 1.0;
+            if (ws.actualS[k] > 1e-300 && ws.targetS[k] > 1e-300)
+                g = std::clamp(std::sqrt(ws.targetS[k] / ws.actualS[k]), 0.25, 4.0);
+            ws.tmp[k] = g;
+        }
+        gain.resize(mOut);
+        if (block == 1) {
+            std::copy(ws.tmp.begin(), ws.tmp.begin() + mOut, gain.begin());
+        } else {
+            const double centre = 0.5 * (block - 1);
+            for (int n = 0; n < mOut; ++n) {
+                const double pos = (n - centre) / block;
+                const int k0 = static_cast<int>(std::floor(pos));
+                const double f = pos - k0;
+                const double g0 = ws.tmp[std::clamp(k0, 0, blocks - 1)], g1 = ws.tmp[std::clamp(k0 + 1, 0, blocks - 1)];
+                gain[n] = g0 + f * (g1 - g0);
+            }
+        }
+        double achieved = 0;
+        for (int n = 0; n < mOut; ++n) achieved += gain[n] * gain[n] * ws.actual[n];
         achieved *= r;
         // The ratio gain is biased low (a local excess of d^2 also raises its own smoothed
         // denominator), by a factor set by B L alone: one scalar per band restores the
@@ -660,21 +680,26 @@ void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& c
         longest = std::max(longest, kernels[i].size());
     }
     // The paths usually end long before the IR does: an FFT grid just long enough for the
-    // last pulse plus the bank's ringing (kSpecularPadS each side) keeps this part cheap.
+    // last pulse plus the bank's ringing (kSpecularPadS each side) keeps this part cheap. Its
+    // size is rounded up on a coarse ladder, so that seats share grids and FFT plans.
     const int pad = static_cast<int>(std::ceil(kSpecularPadS * fs));
     const int span = std::min<long>(nOut, static_cast<long>(std::ceil(last * fs)) + kFractionalDelayHalfTaps +
                                               static_cast<long>(longest) + 1);
-    const std::shared_ptr<const BankGrid> grid = BankGridFor(FastRealFftSize(span + 2 * pad), ctx.sampleRate);
-    const std::vector<std::vector<float>>& bandMag = grid->mag;
-    RealFft fft(grid->size);
-    const int m = fft.Size(), nBins = fft.BinCount();
+    const std::shared_ptr<const LateGrid> grid = LateGridFor(SpecularGridSize(span + 2 * pad, ctx.sampleRate),
+                                                             ctx.sampleRate);
+    const int m = grid->size;
     const int nSpan = std::min(nOut, m - pad);  // samples of this grid that are valid output
     const double i0Beta = BesselI0(kKaiserBeta);
     constexpr int kTaps = 2 * kFractionalDelayHalfTaps;
 
-    std::vector<std::vector<float>> train(kBandCount, std::vector<float>(m, 0.0f));
+    // Per band, the train of pulses: on the full grid for bands that reach Nyquist, else
+    // directly on the band's decimated grid (the decimation kernel of the late part; its
+    // pass band is flat to ~1e-4 over the band, and it is zero phase, so delays are kept).
+    thread_local std::vector<std::vector<float>> train;
+    train.resize(kBandCount);
+    std::array<bool, kBandCount> used{};
+    for (int b = 0; b < kBandCount; ++b) train[b].assign(grid->bands[b].size, 0.0f);
     std::vector<double> taps(kTaps), pulse;
-    bool any = false;
     for (size_t pi = 0; pi < paths.paths.size(); ++pi) {
         const SpecularPath& p = paths.paths[pi];
         const std::vector<float>& kernel = kernels[pi];
@@ -694,22 +719,49 @@ void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& c
         for (int b = 0; b < kBandCount; ++b) {
             const double amp = std::sqrt(p.energy[b]);
             if (amp == 0) continue;
-            any = true;
+            used[b] = true;
+            const DecimatedBand& db = grid->bands[b];
+            const int r = db.decimation, mc = db.size, h = db.sharpHalfTaps;
+            std::vector<float>& u = train[b];
             for (size_t i = 0; i < pulse.size(); ++i) {
                 const long j = n0 - kFractionalDelayHalfTaps + 1 + static_cast<long>(i);
                 if (j < 0 || j >= m) continue;
-                train[b][j] += static_cast<float>(amp * pulse[i]);
+                const float x = static_cast<float>(amp * pulse[i]);
+                if (r == 1) {
+                    u[j] += x;
+                    continue;
+                }
+                const int m0 = static_cast<int>(j / r), phase = static_cast<int>(j - static_cast<long>(m0) * r);
+                const float* kern = &db.sharpKernel[static_cast<size_t>(phase) * 2 * h];
+                for (int t = 0; t < 2 * h; ++t) u[((m0 - h + 1 + t) % mc + mc) % mc] += x * kern[t];
             }
         }
     }
+    bool any = false;
+    for (bool u : used) any = any || u;
     if (!any) return;
-    std::vector<std::complex<float>> total(nBins, 0.0f), spectrum(nBins);
+    // Band filter each train on its grid and place its spectrum (times R: band-limited
+    // interpolation) into the full grid's; one inverse FFT gives the sum at the full rate.
+    thread_local std::vector<std::complex<float>> total, spectrum;
+    total.assign(m / 2 + 1, 0.0f);
     for (int b = 0; b < kBandCount; ++b) {
+        if (!used[b]) continue;
+        const DecimatedBand& db = grid->bands[b];
+        RealFft& fft = ThreadRealFft(db.size);
+        const int nBins = fft.BinCount();
+        spectrum.resize(nBins);
         fft.Forward(train[b].data(), spectrum.data());
-        for (int i = 0; i < nBins; ++i) total[i] += spectrum[i] * bandMag[b][i];
+        const float scale = static_cast<float>(db.decimation);
+        if (db.decimation == 1) {
+            for (int i = 0; i < nBins; ++i) total[i] += spectrum[i] * db.mag[i];
+        } else {
+            for (int i = 0; i < nBins - 1; ++i) total[i] += scale * db.mag[i] * spectrum[i];
+            total[nBins - 1] += 0.5f * scale * db.mag[nBins - 1] * spectrum[nBins - 1];
+        }
     }
-    std::vector<float> y(m);
-    fft.Inverse(total.data(), y.data());
+    thread_local std::vector<float> y;
+    y.resize(m);
+    ThreadRealFft(m).Inverse(total.data(), y.data());
     for (int n = 0; n < nSpan; ++n) out[n] += y[n];
 }
 

@@ -32,6 +32,7 @@
 // Sample 0 of an IR is the emission time; the bank's pre-ringing (low bands: tens of ms)
 // before sample 0 is cut, which matters only for the 63/125 Hz bands of arrivals within a few
 // tens of ms of emission.
+#include <complex>
 #include <cstdint>
 #include <functional>
 #include <memory>
@@ -126,6 +127,13 @@ class HrtfSet {
 
   private:
     HrtfSet();
+    /* Late-part decoder filters for one FFT size, [ear * 4 + AmbiX channel][bin] (binaural.cpp);
+       made once per size and kept. */
+    std::shared_ptr<const std::vector<std::vector<std::complex<float>>>> DecoderFilters(int fftSize,
+                                                                                       double sampleRate) const;
+    friend ImpulseResponse SynthesizeBinaural(const ReceiverPaths&, const ReceiverHistogram&,
+                                              const SynthesisContext&, const Vec3&, const HrtfSet&,
+                                              Diagnostics&);
     struct Impl;
     std::unique_ptr<Impl> impl_;
 };
