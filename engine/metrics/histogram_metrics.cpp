@@ -52,7 +52,7 @@ double FindTimeZero(const ReceiverPaths& paths, const ReceiverHistogram& hist, b
    at 48 kHz, normalised to 1: a specular arrival is seen through the same analysis filter as
    in a measured or synthesized IR, so its band energy is spread over the filter's ringing
    (a few ms at 1 kHz, about 20 ms at 125 Hz) and delayed by its group delay. Without this
-   the histogram path would see each path as an instant step, and EDT and Ts of seats with a
+   the histogram path would see each path as an instant step, and EDT of seats with a
    strong direct sound would depend on the time grid instead of matching the WAV path. */
 constexpr int kKernelRate = 48000;
 const std::vector<double>& CumulativeKernel(int band) {

@@ -179,3 +179,54 @@ TEST(AnalyzeCommand, ErrorsNameTheFileOrOptionAndTheFix) {
 
 }  // namespace
 }  // namespace hallwright
+
+namespace hallwright {
+namespace {
+
+/* The CSV row (band, parameter) of `analyze FILE ARGS --csv`, or empty cells. */
+std::vector<std::string> AnalyzeRow(const std::string& wav, const std::string& args, const std::string& csvPath,
+                                    const std::string& band, const std::string& parameter) {
+    auto r = RunHallwright("analyze '" + wav + "' " + args + " --csv '" + csvPath + "'");
+    EXPECT_EQ(r.exitCode, 0) << r.err;
+    const Csv csv = ReadCsv(csvPath);
+    const auto it = csv.rows.find({band, parameter});
+    return it == csv.rows.end() ? std::vector<std::string>(9) : it->second;
+}
+
+// Files of a real run (the shoebox, 4000 rays): AmbiX gives LF (from W and the lateral
+// figure-of-eight), binaural gives IACC_E (ISO 3382-1 Annex B) and no G (its level follows
+// the HRTF set), --reference-energy overrides the sidecar (doubling it lowers G by 10 lg 2 =
+// 3.0103 dB exactly, ISO 3382-1 A.2.1) and --source-azimuth turns the lateral axis.
+TEST(AnalyzeCommand, SpatialFilesOfARealRun) {
+    const std::string dir = test::TempDir("analyze-run");
+    auto sim = RunHallwright("simulate scenes/shoebox/scene.toml --rays 4000 --quiet --out '" + dir + "/run'");
+    ASSERT_EQ(sim.exitCode, 0) << sim.err;
+    const std::string ambix = dir + "/run/ir/ambix/S__R.wav", binaural = dir + "/run/ir/binaural/S__R.wav";
+    const std::string csv = dir + "/a.csv";
+
+    const auto lf = AnalyzeRow(ambix, "--bands 1000", csv, "1000", "LF");
+    ASSERT_FALSE(lf[5].empty()) << lf[8];
+    const double lfValue = std::stod(lf[5]);
+    EXPECT_GT(lfValue, 0.0);
+    EXPECT_LT(lfValue, 1.0);
+    EXPECT_EQ(lf[1], "R");  // names from the sidecar
+    const auto g = AnalyzeRow(ambix, "--bands 1000", csv, "1000", "G");
+    ASSERT_FALSE(g[5].empty()) << g[8];
+    // The sidecar's reference is 1/(400 pi) (response.h); twice that is 3.0103 dB less G.
+    const auto g2 = AnalyzeRow(ambix, "--bands 1000 --reference-energy 0.0015915494309189533", csv, "1000", "G");
+    ASSERT_FALSE(g2[5].empty()) << g2[8];
+    EXPECT_NEAR(std::stod(g[5]) - std::stod(g2[5]), 10 * std::log10(2.0), 2e-3);  // CSV rounding
+    const auto turned = AnalyzeRow(ambix, "--bands 1000 --source-azimuth 90", csv, "1000", "LF");
+    ASSERT_FALSE(turned[5].empty()) << turned[8];
+    EXPECT_NE(turned[5], lf[5]);
+
+    const auto iacc = AnalyzeRow(binaural, "--bands 1000", csv, "1000", "IACC_E");
+    ASSERT_FALSE(iacc[5].empty()) << iacc[8];
+    EXPECT_GE(std::stod(iacc[5]), 0.0);
+    EXPECT_LE(std::stod(iacc[5]), 1.0);
+    const auto gb = AnalyzeRow(binaural, "--bands 1000 --channels mono", csv, "1000", "G");
+    EXPECT_TRUE(gb[5].empty()) << gb[5];
+}
+
+}  // namespace
+}  // namespace hallwright

@@ -14,11 +14,16 @@
 //   delays and count on the side of the limit they fall on (an impulse exactly at a limit
 //   counts as later, intervals are [a, b)). No energy arrives before t0: the bin holding t0
 //   spreads its energy over [t0, bin end) only.
-// - Histogram path: each specular arrival (exact delay) is seen through the WAV path's
-//   octave filter (octave_filter.h): its band energy is spread over that filter's energy
-//   response |h_b(t)|^2 into the 1 ms bins, as a measured or synthesized IR would be analysed.
-//   Energies (G, C, D, LF) are unchanged by this; EDT and Ts of seats with a strong direct
-//   sound then agree with the WAV path instead of depending on the time grid.
+// - Histogram path, decay curves: each specular arrival (exact delay) is seen through the WAV
+//   path's octave filter (octave_filter.h): its band energy is spread over that filter's
+//   energy response |h_b(t)|^2 (the first 4 ms at 0.125 ms steps, the rest in the 1 ms
+//   bins), as a measured or synthesized IR would be analysed, so EDT of seats with a strong
+//   direct sound does not depend on the time grid. Energy ratios, Ts, LF/LFC and the MTF
+//   read the specular arrivals at their exact times.
+// - WAV path: its analysis filter delays every arrival's band energy by the filter's energy
+//   centroid (OctaveFilter::EnergyDelayS, ~2 ms at 500 Hz); the 5/50/80 ms limits and Ts's
+//   origin move with it (BandInput::limitOffsetS), so both paths split the same arrivals
+//   into early and late (ISO 3382-1 A.2 defines the limits on arrival times).
 // - Decay curves: Schroeder backward integration (1965) with an exponential tail
 //   compensation beyond the end of the record (Lundeby et al. 1995); T from a least-squares
 //   line on L(t) over 0..-10 dB (EDT), -5..-25 dB (T20), -5..-35 dB (T30) (ISO 3382-1/-2).
