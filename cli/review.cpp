@@ -1,9 +1,11 @@
-// `hallwright review SCENE.toml [--json] [--out DIR]`: the design review (flutter, echoes,
-// focusing, balcony overhangs, faced absorbers) of a scene, printed and written to review.json.
+// `hallwright review SCENE.toml [--run DIR] [--json] [--out DIR]`: the design review (flutter,
+// echoes, focusing, balcony overhangs, faced absorbers) of a scene, printed and written to
+// review.json. With --run, the evidence of a finished `simulate` run is added (review.h).
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
 #include <memory>
+#include <optional>
 #include <string>
 #include <variant>
 
@@ -23,6 +25,11 @@ std::string ValueText(const hallwright::FindingValue& v) {
         return buf;
     }
     if (std::holds_alternative<std::string>(v)) return std::get<std::string>(v);
+    if (std::holds_alternative<std::vector<std::string>>(v)) {
+        std::string s;
+        for (const auto& name : std::get<std::vector<std::string>>(v)) s += (s.empty() ? "" : ", ") + name;
+        return "[" + s + "]";
+    }
     std::string s = "[";
     for (double x : std::get<std::vector<double>>(v)) {
         std::snprintf(buf, sizeof buf, "%s%.4g", s.size() > 1 ? ", " : "", x);
@@ -57,34 +64,52 @@ void PrintFindings(const std::string& title, const std::vector<hallwright::Findi
 const bool kRegistered = hwcli::AddCommand(
     "review",
     "Design review: flutter, echoes (image sources), focusing, balcony overhangs, faced absorbers\n"
-    "Writes review.json into --out (default: beside the scene file).\n"
-    "Example: hallwright review scenes/theatre/scene.toml --out results/",
+    "Writes review.json into --out (default: beside the scene file). With --run DIR (the --out of\n"
+    "`hallwright simulate`), the run's IRs confirm flutter, its paths (--paths) measure focusing\n"
+    "and replace the recomputed image sources of the echo rule.\n"
+    "Example: hallwright review scenes/theatre/scene.toml --run results/ --out results/",
     [](CLI::App* sub) {
         auto scenePath = std::make_shared<std::string>();
         auto outDir = std::make_shared<std::string>();
         auto json = std::make_shared<bool>(false);
+        auto runDir = std::make_shared<std::string>();
         sub->add_option("scene", *scenePath, "scene file (TOML)")->required();
         sub->add_option("--out", *outDir, "folder for review.json (default: the scene's folder)");
         sub->add_flag("--json", *json, "print only the review.json object on stdout");
+        sub->add_option("--run", *runDir, "output directory of `hallwright simulate` for this scene (IRs, paths)");
         return [=] {
             hallwright::Diagnostics diag;
             auto room = hallwright::LoadRoom(*scenePath, diag);
             hwcli::Report(diag);
             if (!room) return hwcli::kExitBadInput;
             const auto options = hallwright::ReviewOptionsFrom(room->scene);
-            // Specular paths for the echo rule: image sources of every source, to the scene's
-            // order. (The tracer's diffuse part is not added here: it would cost a full trace,
-            // and echo findings from specular paths alone are therefore warnings.)
-            std::vector<hallwright::ReceiverPaths> paths;
-            const auto iso = hallwright::ImageSourceOptionsFrom(room->scene.settings);
-            hallwright::Diagnostics runDiag;
-            for (size_t s = 0; s < room->scene.sources.size(); ++s) {
-                auto part = hallwright::ComputeImageSources(*room, static_cast<int>(s), iso, runDiag);
-                for (auto& p : part) paths.push_back(std::move(p));
+            // The run, when given: checked against the scene before anything else.
+            std::optional<hallwright::RunEvidence> run;
+            if (!runDir->empty()) {
+                hallwright::Diagnostics runCheck;
+                run = hallwright::ReadRunEvidence(*runDir, room->scene, room->geometry, runCheck);
+                hwcli::Report(runCheck);
+                if (!run) return hwcli::kExitBadInput;
             }
+            // Specular paths for the echo rule: the run's (--paths), else image sources of every
+            // source, to the scene's order. (The tracer's diffuse part is not added: the run's
+            // histograms are not read back, and a fresh trace would cost a full simulation, so
+            // echo findings from specular paths alone are warnings.)
+            std::vector<hallwright::ReceiverPaths> paths;
+            hallwright::Diagnostics runDiag;
+            if (run && run->hasPaths) {
+                paths = run->paths;
+            } else {
+                const auto iso = hallwright::ImageSourceOptionsFrom(room->scene.settings);
+                for (size_t s = 0; s < room->scene.sources.size(); ++s) {
+                    auto part = hallwright::ComputeImageSources(*room, static_cast<int>(s), iso, runDiag);
+                    for (auto& p : part) paths.push_back(std::move(p));
+                }
+            }
+            auto findings = hallwright::ReviewRoom(room->scene, room->geometry, options, &paths);
+            if (run) hallwright::AddRunEvidence(findings, room->scene, room->geometry, *run, runDiag);
             hwcli::Report(runDiag);
             if (runDiag.HasErrors()) return hwcli::kExitRunFailure;
-            const auto findings = hallwright::ReviewRoom(room->scene, room->geometry, options, &paths);
             const std::string text = hallwright::FindingsToJson(findings);
 
             // review.json: written to a temporary name, then renamed (never half-written).

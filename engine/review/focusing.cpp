@@ -139,6 +139,12 @@ std::vector<Patch> ConcavePatches(const Geometry& geometry) {
 
 }  // namespace
 
+std::vector<std::vector<int>> review::ConcavePatchFaces(const Geometry& geometry) {
+    std::vector<std::vector<int>> out;
+    for (const Patch& p : ConcavePatches(geometry)) out.push_back(p.faces);
+    return out;
+}
+
 std::vector<Finding> ReviewFocusing(const Scene& scene, const Geometry& geometry, const ReviewOptions& options) {
     std::vector<Finding> out;
     for (const Patch& patch : ConcavePatches(geometry)) {

@@ -136,6 +136,12 @@ std::vector<double> Finding::List(const std::string& key) const {
     return {};
 }
 
+std::vector<std::string> Finding::Names(const std::string& key) const {
+    const FindingValue* v = Value(key);
+    if (v && std::holds_alternative<std::vector<std::string>>(*v)) return std::get<std::vector<std::string>>(*v);
+    return {};
+}
+
 ReviewOptions ReviewOptionsFrom(const Scene& scene) {
     ReviewOptions o;
     o.venue = scene.review.venue == "theatre" ? Venue::kTheatre : Venue::kConcert;
@@ -186,6 +192,8 @@ std::string FindingsToJson(const std::vector<Finding>& findings) {
         for (const auto& [key, value] : f.values) {
             if (std::holds_alternative<double>(value)) values[key] = number(std::get<double>(value));
             else if (std::holds_alternative<std::string>(value)) values[key] = std::get<std::string>(value);
+            else if (std::holds_alternative<std::vector<std::string>>(value))
+                values[key] = std::get<std::vector<std::string>>(value);
             else {
                 ordered_json arr = ordered_json::array();
                 for (double v : std::get<std::vector<double>>(value)) arr.push_back(number(v));

@@ -41,6 +41,9 @@ bool InTriangle(const Vec2& p, const std::array<Vec2, 3>& t);
 /* Mean of a band array over the 1, 2 and 4 kHz octaves. */
 double Mean1To4k(const Bands& b);
 
+/* Faces of each concave patch, in the order ReviewFocusing reports them (focusing.cpp). */
+std::vector<std::vector<int>> ConcavePatchFaces(const Geometry& geometry);
+
 /* Formats a number with `digits` decimals. */
 std::string Fixed(double v, int digits);
 
