@@ -115,8 +115,10 @@ double EnvelopeIntegrator::EnergyDirect(double a, double b) const {
             if (hi > lo) e += (hi - lo) * env_.bins[k];
         }
     }
-    for (const TimedEnergy& p : impulses_)
-        if (p.timeS >= a && p.timeS < b) e += p.energy;
+    // Impulses in [a, b), summed one by one (sorted: only those inside are visited).
+    auto it = std::lower_bound(impulses_.begin(), impulses_.end(), a,
+                               [](const TimedEnergy& p, double v) { return p.timeS < v; });
+    for (; it != impulses_.end() && it->timeS < b; ++it) e += it->energy;
     return e + (TailEnergyBefore(b) - TailEnergyBefore(a));
 }
 
