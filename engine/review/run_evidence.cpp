@@ -399,6 +399,10 @@ std::optional<RunEvidence> ReadRunEvidence(const std::string& dir, const Scene& 
     if (!checkHash("scene", scene.scenePath, "scene file")) return std::nullopt;
     if (!checkHash("mesh", scene.meshPath, "model (OBJ)")) return std::nullopt;
 
+    if (j.contains("complete") && j["complete"].is_boolean() && !j["complete"].get<bool>())
+        diag.Warning(SourceLoc{runJson.string(), 0, 0, ""},
+                     "the run did not finish (interrupted or failed); the review uses the IRs and paths it wrote");
+
     RunEvidence run;
     run.dir = dir;
     // Mono IRs of every (source, receiver) pair.
@@ -505,8 +509,9 @@ void AddFlutterEvidence(Finding& f, const Scene& scene, const RunEvidence& run, 
     }
     std::vector<std::string> checked, confirmed, notes;
     std::vector<double> seatPeaks, seatLags;
-    std::vector<double> meanAcf;
+    std::vector<double> meanAcf;  // sum, then mean, of the seats' autocorrelations
     double lagStep = 0;
+    size_t inMean = 0;
     for (int r : seats) {
         int s = -1;
         for (size_t k = 0; k < run.monoIr.size() && s < 0; ++k)
@@ -527,14 +532,16 @@ void AddFlutterEvidence(Finding& f, const Scene& scene, const RunEvidence& run, 
         seatPeaks.push_back(ev.peak);
         seatLags.push_back(ev.lagS);
         if (ev.confirmed) confirmed.push_back(scene.receivers[r].name);
-        if (meanAcf.empty() || lagStep != ev.lagStepS) {
-            if (!meanAcf.empty()) continue;  // a different sample rate: kept out of the mean
+        if (inMean == 0) {
             meanAcf.assign(ev.autocorrelation.size(), 0.0);
             lagStep = ev.lagStepS;
+        } else if (ev.lagStepS != lagStep) {
+            continue;  // an IR of another sample rate: its own verdict only, not in the mean
         }
         const size_t len = std::min(meanAcf.size(), ev.autocorrelation.size());
         meanAcf.resize(len);
         for (size_t k = 0; k < len; ++k) meanAcf[k] += ev.autocorrelation[k];
+        ++inMean;
     }
     f.values.emplace_back("checked_seats", checked);
     f.values.emplace_back("confirmed_seats", confirmed);
@@ -544,7 +551,7 @@ void AddFlutterEvidence(Finding& f, const Scene& scene, const RunEvidence& run, 
                      (notes.empty() ? std::string() : " (" + notes.front() + ")");
         return;
     }
-    for (double& v : meanAcf) v /= static_cast<double>(checked.size());
+    for (double& v : meanAcf) v /= static_cast<double>(inMean);
     FlutterEvidence mean;
     FlutterPeak(meanAcf, lagStep, period, mean);
     const bool isConfirmed = mean.confirmed;

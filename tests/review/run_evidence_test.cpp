@@ -10,6 +10,7 @@
 
 #include "cli/cli_support.h"
 #include "hallwright/air.h"
+#include "hallwright/image_sources.h"
 #include "hallwright/paths_csv.h"
 #include "hallwright/review.h"
 #include "hallwright/room.h"
@@ -231,6 +232,28 @@ TEST(RunEvidenceValidation, FocusingWithoutPathsSaysSo) {
     EXPECT_NE(focus[0].summary.find("--paths"), std::string::npos);
     EXPECT_TRUE(std::isnan(focus[0].Number("concentration_db")));
     EXPECT_EQ(focus[0].severity, "warning");  // unchanged: the geometry's verdict
+}
+
+TEST(RunEvidenceValidation, EchoRuleOnTheRunsPathsEqualsRecomputedImageSources) {
+    // The paths CSV keeps 17 significant digits, so the run's paths are the image sources the
+    // review would compute itself: the same echo findings, to the last digit.
+    const std::string scene = "tests/data/review/echo_hard_rear/scene.toml";
+    const std::string run = Simulate(scene, "echo", "--rays 1000 --paths");
+    Diagnostics diag;
+    auto room = LoadRoom(SourcePath(scene), diag);
+    ASSERT_TRUE(room) << diag.ToString();
+    auto ev = ReadRunEvidence(run, room->scene, room->geometry, diag);
+    ASSERT_TRUE(ev && ev->hasPaths) << diag.ToString();
+    std::vector<ReceiverPaths> recomputed;
+    for (size_t s = 0; s < room->scene.sources.size(); ++s)
+        for (auto& p : ComputeImageSources(*room, static_cast<int>(s), ImageSourceOptionsFrom(room->scene.settings), diag))
+            recomputed.push_back(std::move(p));
+    const auto options = ReviewOptionsFrom(room->scene);
+    const auto fromRun = ReviewEchoes(room->scene, room->geometry, ev->paths, options);
+    const auto fresh = ReviewEchoes(room->scene, room->geometry, recomputed, options);
+    ASSERT_FALSE(fromRun.empty());
+    EXPECT_EQ(fromRun.front().severity, "warning");  // the hard rear wall's late reflection
+    EXPECT_EQ(FindingsToJson(fromRun), FindingsToJson(fresh));
 }
 
 TEST(ReviewRunCommand, ErrorsNameTheProblemAndTheFix) {
