@@ -8,6 +8,7 @@
 #include <complex>
 #include <memory>
 #include <mutex>
+#include <numeric>
 #include <numbers>
 #include <string>
 
@@ -240,8 +241,11 @@ struct DecimatedBand {
 
 struct LateGrid {
     int size = 0, sampleRate = 0;
-    Bands eps = Bands::Zero();  // eps_b on the full grid (as BankGrid)
+    Bands eps = Bands::Zero();  // eps_b on the full grid: sum_n h_b(n)^2
     std::array<DecimatedBand, kBandCount> bands;
+    /* 1 - |H_top|, the sum of the lower bands, on the grid of the band below the top one
+       (empty when that band is not decimated): see the top band in AddLatePart. */
+    std::vector<float> complementMag;
 };
 
 /* Grid step of band b's late part: the largest 3 * 2^k with fs / (2 R) >= margin * top_b; the
@@ -250,8 +254,20 @@ int LateDecimation(int band, int sampleRate) {
     if (band == kBandCount - 1) return 1;
     const double top = CrossoverHz(band) * std::exp2(kCrossoverHalfWidthOct);
     int best = 1;
-    for (int r = 3; sampleRate / (2.0 * r) >= kDecimationMargin * top; r *= 2) best = r;
+    // Candidates 2, 3, 4, 6, 8, 12, ...: the condition holds up to some step, then never.
+    for (int k = 1; k < 24; ++k) {
+        const int r = (k % 2) ? (1 << ((k + 1) / 2)) : 3 * (1 << ((k - 2) / 2));
+        if (sampleRate / (2.0 * r) < kDecimationMargin * top) break;
+        best = r;
+    }
     return best;
+}
+
+/* Step that every band's grid divides (their least common multiple). */
+int LateGridStep(int sampleRate) {
+    int step = 1;
+    for (int b = 0; b < kBandCount; ++b) step = std::lcm(step, LateDecimation(b, sampleRate));
+    return step;
 }
 
 /* Smallest n' >= n whose factors are 2, 3 and 5 only. */
@@ -267,18 +283,14 @@ int SmoothAtLeast(int n) {
 /* Full grid of at least `need` points on which every band's step divides evenly (and leaves
    an even number of points for the real FFT). */
 int LateGridSize(int need, int sampleRate) {
-    int rMax = 1;
-    for (int b = 0; b < kBandCount; ++b) rMax = std::max(rMax, LateDecimation(b, sampleRate));
-    const int unit = 2 * rMax;
+    const int unit = 2 * LateGridStep(sampleRate);
     return unit * SmoothAtLeast((need + unit - 1) / unit);
 }
 
 /* Grid of the specular part: at least `need` points, rounded up to c 2^k (c = 16, 18, 20,
    24, 27, 30: at most 20 % more) times the late grids' unit, so that seats share grids. */
 int SpecularGridSize(int need, int sampleRate) {
-    int rMax = 1;
-    for (int b = 0; b < kBandCount; ++b) rMax = std::max(rMax, LateDecimation(b, sampleRate));
-    const int unit = 2 * rMax;
+    const int unit = 2 * LateGridStep(sampleRate);
     const int q = (need + unit - 1) / unit;
     int best = SmoothAtLeast(q);
     if (q > 16) {
@@ -339,6 +351,13 @@ std::shared_ptr<const LateGrid> MakeLateGrid(int m, int sampleRate) {
         MakeDecimationKernel(r, top, fs, kLateStopDb, db.halfTaps, db.kernel);
         MakeDecimationKernel(r, top, fs, kSpecularStopDb, db.sharpHalfTaps, db.sharpKernel);
     }
+    const DecimatedBand& below = grid->bands[kBandCount - 2];
+    if (below.decimation > 1) {
+        grid->complementMag.resize(below.mag.size());
+        for (size_t i = 0; i < below.mag.size(); ++i)
+            grid->complementMag[i] = static_cast<float>(
+                1.0 - SynthesisBandMagnitude(kBandCount - 1, static_cast<double>(i) * fs / m));
+    }
     return grid;
 }
 
@@ -358,14 +377,34 @@ std::shared_ptr<const LateGrid> LateGridFor(int m, int sampleRate) {
     return grid;
 }
 
+/* Band-limited interpolation of a grid signal y (step r) to the full rate: its spectrum,
+   times r, added into the full grid's spectrum `full` (the grid's Nyquist bin split in half
+   between its two images). */
+void EmbedGridSpectrum(RealFft& fft, std::vector<float>& y, int r, std::vector<std::complex<float>>& spectrum,
+                       std::vector<std::complex<float>>& full) {
+    const int nBins = fft.BinCount();
+    spectrum.resize(nBins);
+    fft.Forward(y.data(), spectrum.data());
+    const float scale = static_cast<float>(r);
+    for (int i = 0; i < nBins - 1; ++i) full[i] += scale * spectrum[i];
+    full[nBins - 1] += 0.5f * scale * spectrum[nBins - 1];
+}
+
 /* Buffers of the late part, kept per thread so that a run does not allocate (and page in)
    megabytes per seat. */
 struct LateWorkspace {
     std::vector<std::vector<float>> u, d, full;
     std::vector<std::vector<std::complex<float>>> spectra;
     std::vector<std::complex<float>> spectrum;
-    std::vector<double> target, actual, targetB, actualB, targetS, actualS, tmp, gain;
+    std::vector<double> mean, upperShare;
+    std::vector<int> eventSample, binEvents, at, binOf, lowerBin, upperBin;
+    std::vector<char> binHasEnergy;
+    std::vector<float> eventSign, weight;
+    std::vector<std::array<float, 4>> eventGain;
+    std::vector<size_t> order;
+    std::vector<double> target, actual, actualC, targetB, actualB, targetS, actualS, tmp, gain;
     std::vector<float> y, xb;
+    std::vector<std::vector<float>> shared;  // the grid shared by the top band and the one below
 };
 
 void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int nOut,
@@ -379,13 +418,16 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
     const int binCount = std::min(hist.binCount, static_cast<int>(std::ceil(nOut / samplesPerBin)));
     if (binCount <= 0) return;
 
+    thread_local LateWorkspace ws;
     // Mean over batches = the all-ray estimate (propagation.h).
-    std::vector<double> mean(static_cast<size_t>(binCount) * kBandCount, 0.0);
+    std::vector<double>& mean = ws.mean;
+    mean.assign(static_cast<size_t>(binCount) * kBandCount, 0.0);
     for (int batch = 0; batch < kBatchCount; ++batch)
         for (int k = 0; k < binCount; ++k)
             for (int b = 0; b < kBandCount; ++b)
                 mean[k * kBandCount + b] += hist.Energy(batch, k, b) / kBatchCount;
-    std::vector<char> binHasEnergy(binCount, 0);
+    std::vector<char>& binHasEnergy = ws.binHasEnergy;
+    binHasEnergy.assign(binCount, 0);
     int kFirst = -1, kLast = -1;
     for (int k = 0; k < binCount; ++k)
         for (int b = 0; b < kBandCount; ++b)
@@ -413,8 +455,10 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
     };
     const double tStart = kFirst * kBinWidthS;
     const double tEnd = std::min((kLast + 1) * kBinWidthS, nOut / fs);
-    std::vector<int> eventSample;
-    std::vector<int> binEvents(binCount, 0);
+    std::vector<int>& eventSample = ws.eventSample;
+    eventSample.clear();
+    std::vector<int>& binEvents = ws.binEvents;
+    binEvents.assign(binCount, 0);
     for (double lambda = cumulative(tStart);;) {
         lambda += -std::log(1.0 - Uniform(rng));
         const double t = inverse(lambda);
@@ -433,10 +477,12 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
         eventSample.push_back(n);
         ++binEvents[k];
     }
-    std::vector<float> eventSign(eventSample.size());
+    std::vector<float>& eventSign = ws.eventSign;
+    eventSign.resize(eventSample.size());
     for (float& s : eventSign) s = (rng() & 1u) ? 1.0f : -1.0f;
     // Directions come from their own stream, so the omni channel equals the mono IR.
-    std::vector<std::array<float, 4>> eventGain(channels > 1 ? eventSample.size() : 0);
+    std::vector<std::array<float, 4>>& eventGain = ws.eventGain;
+    eventGain.resize(channels > 1 ? eventSample.size() : 0);
     if (channels > 1) {
         pcg32 dirRng = SequenceRng(ctx.seed ^ 0xD1EC7100ull, ctx.source, ctx.receiver);
         for (size_t i = 0; i < eventSample.size(); ++i)
@@ -445,11 +491,14 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
 
     // Diracs that fall on the same sample add up: one entry per sample, in time order, with
     // its summed sign (times the channel gains).
-    std::vector<size_t> order(eventSample.size());
+    std::vector<size_t>& order = ws.order;
+    order.resize(eventSample.size());
     for (size_t i = 0; i < order.size(); ++i) order[i] = i;
     std::stable_sort(order.begin(), order.end(), [&](size_t p, size_t q) { return eventSample[p] < eventSample[q]; });
-    std::vector<int> at;
-    std::vector<float> weight;  // [entry * channels + channel]
+    std::vector<int>& at = ws.at;
+    at.clear();
+    std::vector<float>& weight = ws.weight;  // [entry * channels + channel]
+    weight.clear();
     for (size_t i : order) {
         if (at.empty() || at.back() != eventSample[i]) {
             at.push_back(eventSample[i]);
@@ -462,42 +511,64 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
     const int count = static_cast<int>(at.size());
     auto binOfSample = [&](int n) { return std::min(binCount - 1, static_cast<int>(n / samplesPerBin)); };
 
-    thread_local LateWorkspace ws;
     ws.u.resize(channels);
     ws.d.resize(channels);
     ws.spectra.resize(channels);
     const int fullBins = m / 2 + 1;
     bool anyDecimated = false;
     for (int ch = 0; ch < channels; ++ch) ws.spectra[ch].assign(fullBins, 0.0f);
+    // The top band (up to Nyquist) is x - l * x, x its Dirac train and l the low-pass with
+    // magnitude 1 - |H_top| (zero above the band below's top edge): x stays a sparse train at
+    // the full rate, l * x is computed on the grid of the band below, whose output it shares
+    // (one FFT for both). Without that grid (low sample rates) it is filtered on the full grid.
+    const bool complement = !grid.complementMag.empty();
+    const DecimatedBand& below = grid.bands[kBandCount - 2];
+    ws.shared.resize(channels);
+    if (complement)
+        for (int ch = 0; ch < channels; ++ch) ws.shared[ch].assign(below.size, 0.0f);
+    bool sharedUsed = false;
     std::vector<float>& xb = ws.xb;
     std::vector<double> wantC(channels);
+
+    // Per Dirac, once for all bands: its bin, and the two bin centres (with the weight of the
+    // second) between which the envelope is interpolated.
+    std::vector<int>&binOf = ws.binOf, &lowerBin = ws.lowerBin, &upperBin = ws.upperBin;
+    std::vector<double>& upperShare = ws.upperShare;
+    binOf.resize(count);
+    lowerBin.resize(count);
+    upperBin.resize(count);
+    upperShare.resize(count);
+    for (int i = 0; i < count; ++i) {
+        binOf[i] = binOfSample(at[i]);
+        const double pos = at[i] / samplesPerBin - 0.5;
+        const int k0 = static_cast<int>(std::floor(pos));
+        lowerBin[i] = pos < 0 ? 0 : std::clamp(k0, 0, binCount - 1);
+        upperBin[i] = pos < 0 ? 0 : std::clamp(k0 + 1, 0, binCount - 1);
+        upperShare[i] = pos < 0 ? 0.0 : pos - k0;
+    }
 
     for (int b = 0; b < kBandCount; ++b) {
         // Envelope shaping: each Dirac gets sqrt of the histogram energy interpolated
         // linearly between bin centres (smooth across bin edges, REFERENCES Part B 5.2).
-        auto envelope = [&](int n) {
-            const double pos = n / samplesPerBin - 0.5;
-            int k0 = static_cast<int>(std::floor(pos));
-            const double f = pos - k0;
-            auto value = [&](int k) { return mean[std::clamp(k, 0, binCount - 1) * kBandCount + b]; };
-            if (pos < 0) return value(0);
-            return (1.0 - f) * value(k0) + f * value(k0 + 1);
+        auto envelope = [&](int i) {
+            const double f = upperShare[i];
+            return (1.0 - f) * mean[lowerBin[i] * kBandCount + b] + f * mean[upperBin[i] * kBandCount + b];
         };
         xb.assign(static_cast<size_t>(count) * channels, 0.0f);
         bool any = false;
         for (int i = 0; i < count; ++i) {
-            if (mean[binOfSample(at[i]) * kBandCount + b] <= 0) continue;
-            const float amp = static_cast<float>(std::sqrt(envelope(at[i])));
+            if (mean[binOf[i] * kBandCount + b] <= 0) continue;
+            const float amp = static_cast<float>(std::sqrt(envelope(i)));
             for (int ch = 0; ch < channels; ++ch) xb[static_cast<size_t>(i) * channels + ch] = amp * weight[static_cast<size_t>(i) * channels + ch];
             any = true;
         }
         if (!any) continue;
         // Per-bin normalisation: the Dirac train's energy in bin k equals E_b(k) exactly.
         for (int i0 = 0; i0 < count;) {
-            const int k = binOfSample(at[i0]);
+            const int k = binOf[i0];
             int i1 = i0;
             double sum = 0;
-            for (; i1 < count && binOfSample(at[i1]) == k; ++i1) {
+            for (; i1 < count && binOf[i1] == k; ++i1) {
                 const double x = xb[static_cast<size_t>(i1) * channels];
                 sum += x * x;
             }
@@ -507,7 +578,9 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
             i0 = i1;
         }
 
-        const DecimatedBand& db = grid.bands[b];
+        const bool top = b == kBandCount - 1 && complement;
+        const DecimatedBand& db = top ? below : grid.bands[b];
+        const std::vector<float>& bandMag = top ? grid.complementMag : db.mag;
         const int r = db.decimation, mc = db.size, h = db.halfTaps;
         const int mOut = (nOut + r - 1) / r;
         RealFft& fft = ThreadRealFft(mc);
@@ -549,10 +622,33 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
                 }
             }
             fft.Forward(u.data(), ws.spectrum.data());
-            for (int i = 0; i < nBins; ++i) ws.spectrum[i] *= db.mag[i];
+            for (int i = 0; i < nBins; ++i) ws.spectrum[i] *= bandMag[i];
             ws.d[ch].resize(mc);
             fft.Inverse(ws.spectrum.data(), ws.d[ch].data());
         }
+        // Energy density per full-rate sample of the band signal on this grid, channel ch. For
+        // the top band, d = x - L with L = l * x on the grid: per point L^2 plus, for the
+        // Diracs of the point, (x^2 - 2 x L(n)) / R, L(n) interpolated by the same kernel.
+        auto densityOf = [&](int ch, std::vector<double>& out) {
+            const std::vector<float>& dc = ws.d[ch];
+            out.resize(mOut);
+            for (int n = 0; n < mOut; ++n) out[n] = static_cast<double>(dc[n]) * dc[n];
+            if (!top) return;
+            for (int i = 0; i < count; ++i) {
+                const int n = at[i], m0 = n / r, phase = n - m0 * r;
+                const float* kern = &db.kernel[static_cast<size_t>(phase) * 2 * h];
+                const int p = m0 - h + 1;
+                float l = 0;
+                if (p >= 0 && p + 2 * h <= mc) {
+                    for (int j = 0; j < 2 * h; ++j) l += kern[j] * dc[p + j];
+                } else {
+                    for (int j = 0; j < 2 * h; ++j) l += kern[j] * dc[((p + j) % mc + mc) % mc];
+                }
+                l *= static_cast<float>(r);
+                const double x = xb[static_cast<size_t>(i) * channels + ch];
+                out[std::min(mOut - 1, (n + r / 2) / r)] += (x * x - 2.0 * x * l) / r;
+            }
+        };
 
         // Energy correction on the band's time scale L_b = 8/B (>= 2 ms): random-sign
         // overlap of neighbouring Dirac responses makes a band's energy fluctuate by about
@@ -564,9 +660,7 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
                                                                     kCorrectionBandwidthPeriods / bandwidth) *
                                                            fs / 2));
         const int width = r == 1 ? widthFull : std::max(3, static_cast<int>(std::lround(static_cast<double>(widthFull) / r)));
-        const std::vector<float>& d = ws.d[0];
-        ws.actual.resize(mOut);
-        for (int n = 0; n < mOut; ++n) ws.actual[n] = static_cast<double>(d[n]) * d[n];
+        densityOf(0, ws.actual);
         // On the full grid the gain is computed on blocks of D samples (still >= 6 blocks per
         // box, so the window's shape is kept) and interpolated linearly between block centres.
         const int block = r == 1 ? std::max(1, width / 6) : 1;
@@ -623,8 +717,9 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
             const std::vector<float>& dc = ws.d[ch];
             double fixC = fix;
             if (ch > 0) {
+                densityOf(ch, ws.actualC);
                 double got = 0;
-                for (int n = 0; n < mOut; ++n) got += gain[n] * gain[n] * static_cast<double>(dc[n]) * dc[n];
+                for (int n = 0; n < mOut; ++n) got += gain[n] * gain[n] * ws.actualC[n];
                 got *= r;
                 fixC = got > 0 ? std::sqrt(wantC[ch] / got) : 1.0;
             }
@@ -632,22 +727,42 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
                 for (int n = 0; n < nOut; ++n) outs[ch][n] += static_cast<float>(fixC * gain[n] * dc[n]);
                 continue;
             }
+            if (top) {
+                // The sparse part at the full rate, the gain interpolated linearly between
+                // grid points; - gain L joins the shared grid.
+                for (int i = 0; i < count; ++i) {
+                    const double pos = static_cast<double>(at[i]) / r;
+                    const int k0 = static_cast<int>(std::floor(pos));
+                    const double f = pos - k0;
+                    const double g0 = gain[std::clamp(k0, 0, mOut - 1)], g1 = gain[std::clamp(k0 + 1, 0, mOut - 1)];
+                    outs[ch][at[i]] += static_cast<float>(fixC * (g0 + f * (g1 - g0)) * xb[static_cast<size_t>(i) * channels + ch]);
+                }
+            }
             // Past the IR (ring-out, and the pre-ringing wrapped to the grid's end) the edge
             // gains continue, so the interpolation to the full rate stays smooth at both ends.
-            ws.y.resize(mc);
             const int split = (mOut + mc) / 2;
+            const double sign = top ? -1.0 : 1.0;
+            const bool toShared = complement && (top || b == kBandCount - 2);
+            ws.y.resize(mc);
+            std::vector<float>& y = toShared ? ws.shared[ch] : ws.y;
             for (int n = 0; n < mc; ++n) {
                 const double g = n < mOut ? gain[n] : gain[n < split ? mOut - 1 : 0];
-                ws.y[n] = static_cast<float>(fixC * g * dc[n]);
+                const float v = static_cast<float>(sign * fixC * g * dc[n]);
+                if (toShared) y[n] += v;
+                else y[n] = v;
             }
-            fft.Forward(ws.y.data(), ws.spectrum.data());
-            // Band-limited interpolation: the grid's spectrum (times R) into the full grid's.
-            std::vector<std::complex<float>>& full = ws.spectra[ch];
-            const float scale = static_cast<float>(r);
-            for (int i = 0; i < nBins - 1; ++i) full[i] += scale * ws.spectrum[i];
-            full[nBins - 1] += 0.5f * scale * ws.spectrum[nBins - 1];
             anyDecimated = true;
+            if (toShared) {
+                sharedUsed = true;
+                continue;
+            }
+            EmbedGridSpectrum(fft, y, r, ws.spectrum, ws.spectra[ch]);
         }
+    }
+    if (sharedUsed) {
+        RealFft& fft = ThreadRealFft(below.size);
+        ws.spectrum.resize(fft.BinCount());
+        for (int ch = 0; ch < channels; ++ch) EmbedGridSpectrum(fft, ws.shared[ch], below.decimation, ws.spectrum, ws.spectra[ch]);
     }
     if (!anyDecimated) return;
     RealFft& fullFft = ThreadRealFft(m);
@@ -733,7 +848,12 @@ void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& c
                 }
                 const int m0 = static_cast<int>(j / r), phase = static_cast<int>(j - static_cast<long>(m0) * r);
                 const float* kern = &db.sharpKernel[static_cast<size_t>(phase) * 2 * h];
-                for (int t = 0; t < 2 * h; ++t) u[((m0 - h + 1 + t) % mc + mc) % mc] += x * kern[t];
+                const int q = m0 - h + 1;
+                if (q >= 0 && q + 2 * h <= mc) {
+                    for (int t = 0; t < 2 * h; ++t) u[q + t] += x * kern[t];
+                } else {
+                    for (int t = 0; t < 2 * h; ++t) u[((q + t) % mc + mc) % mc] += x * kern[t];
+                }
             }
         }
     }
