@@ -57,16 +57,17 @@ TEST(RunEvidence, PeriodicPulsesInDecayingNoiseAreFoundAtTheirPeriod) {
 }
 
 TEST(RunEvidence, DecayingNoiseWithoutPulsesIsNotConfirmed) {
-    // Without a period the peak window and its surroundings are exchangeable: the threshold
-    // (99th percentile) is passed in only a few per cent of noise draws (run_evidence.cpp).
+    // Without a period the peak window and its surroundings are exchangeable: a noise IR passes
+    // with probability about 10-15 % (run_evidence.cpp: 10 % against the surroundings' maximum,
+    // a little more against their 99th percentile). This guards against a criterion that
+    // passes anything: with p = 0.15, P(X <= 6) = 0.978 for Binomial(20, p).
     int confirmed = 0;
     for (unsigned seed = 1; seed <= 20; ++seed) {
         const auto ev = FlutterFromImpulseResponse(DecayingNoise(1.0, 0.0, seed), kFs, 0.0, 0.07);
         ASSERT_TRUE(ev.analysed);
         confirmed += ev.confirmed ? 1 : 0;
     }
-    // Binomial(20, 0.04): P(>= 4) is about 0.7 %.
-    EXPECT_LE(confirmed, 3);
+    EXPECT_LE(confirmed, 6);  // measured: 3 of 20 (seeds 5, 11, 17)
 }
 
 TEST(RunEvidence, ShortOrSilentResponsesAreNotAnalysed) {
