@@ -504,7 +504,12 @@ double DirectDelay(const std::string& wavPath, const Scene& scene, int s, int r)
 void AddFlutterEvidence(Finding& f, const Scene& scene, const RunEvidence& run, Diagnostics& diag) {
     const double period = f.Number("period_s");
     if (!(period > 0)) return;
-    // Seats: those between the surfaces, or (a passing pair lists none) every seat of the run.
+    // Seats: those between the surfaces, or (a passing pair lists none) every seat of the run;
+    // none when no seat lies between them (e.g. the walls of a stage house).
+    if (f.Number("seats_between") == 0.0) {
+        f.values.emplace_back("ir_evidence", std::string("no seats between the surfaces"));
+        return;
+    }
     std::vector<int> seats;
     for (size_t r = 0; r < scene.receivers.size(); ++r) {
         const bool listed = f.seats.empty() ||

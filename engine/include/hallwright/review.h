@@ -88,7 +88,9 @@ std::string FindingsToJson(const std::vector<Finding>& findings);
 // ---- Evidence from a finished run (`hallwright review SCENE --run DIR`) ----
 //
 // Values added to the findings (review.json) when a run is given:
-//  flutter: "ir_evidence" ("confirmed" | "not confirmed" | "no IRs of these seats"),
+//  flutter: "ir_evidence" ("confirmed" | "not confirmed" | "no IRs of these seats" |
+//    "no seats between the surfaces"; checked: the seats between, or every seat (at most 32,
+//    in scene order) for a passing pair, which lists none),
 //    "checked_seats" [names], "confirmed_seats" [names] (seats whose own late-envelope
 //    autocorrelation shows the peak; reported, not required), "autocorrelation_peak"
 //    (confirmed when it exceeds the threshold: peak of the seats' mean
