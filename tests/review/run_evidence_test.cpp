@@ -120,6 +120,27 @@ TEST(RunEvidence, PathsCsvReadsBackWhatWasWritten) {
     EXPECT_NE(bad.ToString().find("not a face"), std::string::npos) << bad.ToString();
 }
 
+TEST(RunEvidence, FlutterPairsWithoutSeatsOrIrsAreLeftAsTheGeometrySays) {
+    auto room = LoadMoved("tests/data/review/flutter_parallel/scene.toml");
+    ASSERT_TRUE(room);
+    auto findings = ReviewFlutter(room->scene, *room->geometry, ReviewOptions{});
+    ASSERT_EQ(findings.size(), 1u);
+    RunEvidence run;  // no IR of any seat
+    run.monoIr.assign(room->scene.sources.size(), std::vector<std::string>(room->scene.receivers.size()));
+    Finding noSeats = findings[0];
+    noSeats.seats.clear();
+    for (auto& [k, v] : noSeats.values)
+        if (k == "seats_between") v = 0.0;
+    std::vector<Finding> both = {findings[0], noSeats};
+    Diagnostics diag;
+    AddRunEvidence(both, room->scene, *room->geometry, run, diag);
+    EXPECT_FALSE(diag.HasErrors()) << diag.ToString();
+    EXPECT_EQ(std::get<std::string>(*both[0].Value("ir_evidence")), "no IRs of these seats");
+    EXPECT_EQ(std::get<std::string>(*both[1].Value("ir_evidence")), "no seats between the surfaces");
+    EXPECT_EQ(both[0].severity, "warning");
+    EXPECT_EQ(both[1].severity, "warning");
+}
+
 /* Runs `simulate` on a scene of the source tree into a fresh folder. */
 std::string Simulate(const std::string& scene, const std::string& name, const std::string& extra) {
     const std::string out = TempDir("run-evidence-" + name);
