@@ -69,7 +69,7 @@ struct Stats {
     int missingHist = 0, missingWav = 0;
 };
 
-TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJnd) {
+TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJndExceptListedPairs) {
     Diagnostics loadDiag;
     auto room = LoadRoom(test::SourcePath("scenes/theatre/scene.toml"), loadDiag);
     ASSERT_TRUE(room) << loadDiag.ToString();
