@@ -2,6 +2,7 @@
 // echoes, focusing, balcony overhangs, faced absorbers) of a scene, printed and written to
 // review.json. With --run, the evidence of a finished `simulate` run is added (review.h).
 #include <cstdio>
+#include <cmath>
 #include <filesystem>
 #include <fstream>
 #include <memory>
@@ -21,6 +22,7 @@ namespace fs = std::filesystem;
 std::string ValueText(const hallwright::FindingValue& v) {
     char buf[64];
     if (std::holds_alternative<double>(v)) {
+        if (!std::isfinite(std::get<double>(v))) return "n/a";  // null in review.json
         std::snprintf(buf, sizeof buf, "%.4g", std::get<double>(v));
         return buf;
     }

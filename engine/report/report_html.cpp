@@ -646,6 +646,7 @@ std::string ReverbSection(const ReportInput& in) {
 
 std::string ValueText(const nlohmann::json& v) {
     if (v.is_number()) return Fixed(v.get<double>(), std::abs(v.get<double>()) >= 100 ? 0 : 3);
+    if (v.is_null()) return "n/a";  // a value that does not apply (NaN in the engine)
     if (v.is_string()) return v.get<std::string>();
     if (v.is_array()) {
         std::string s = "[";

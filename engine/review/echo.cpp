@@ -100,7 +100,7 @@ std::vector<Finding> ReviewEchoes(const Scene& scene, const Geometry& geometry,
         int order;
     };
     std::map<std::vector<int>, std::vector<Hit>> bySequence;  // faces of the offending path -> seats
-    double bestPass = 0;
+    double bestPass = 0, bestPassDelay = -1;  // delay of its strongest late path (-1: none)
     std::string bestPassSeat;
     bool anyDiffuse = false;
     std::map<std::pair<int, int>, const ReceiverHistogram*> histogramOf;
@@ -170,6 +170,7 @@ std::vector<Finding> ReviewEchoes(const Scene& scene, const Geometry& geometry,
         } else if (ekMean >= bestPass) {
             bestPass = ekMean;
             bestPassSeat = seat;
+            bestPassDelay = blamed >= 0 ? sorted[blamed].delayS - t0 : -1;
         }
     }
     std::vector<Finding> out;
@@ -212,11 +213,14 @@ std::vector<Finding> ReviewEchoes(const Scene& scene, const Geometry& geometry,
         f.summary = "no echo: the largest EK of an arrival 50 ms or more after the direct sound is " +
                     review::Fixed(bestPass, 2) + " (at " + bestPassSeat + "), below " +
                     review::Fixed(crit.limit10, 1) + " (" + crit.name + ")";
-        f.values = {{"delay_s", std::numeric_limits<double>::quiet_NaN()},
-                    {"criterion", std::string(crit.name)},
-                    {"limit", crit.limit50},
-                    {"ek", bestPass},
-                    {"seat", bestPassSeat}};
+        // delay_s: the strongest late specular arrival at that seat; not applicable (NaN,
+        // null in review.json, "n/a" when printed) when no specular path arrives 50 ms or
+        // more after the direct sound.
+        f.values.push_back({"delay_s", bestPassDelay >= 0 ? bestPassDelay : std::numeric_limits<double>::quiet_NaN()});
+        f.values.push_back({"criterion", std::string(crit.name)});
+        f.values.push_back({"limit", crit.limit50});
+        f.values.push_back({"ek", bestPass});
+        f.values.push_back({"seat", bestPassSeat});
         out.push_back(std::move(f));
     }
     return out;
