@@ -24,9 +24,11 @@ namespace {
 
 constexpr double kPi = std::numbers::pi;
 /* Zero padding on each side of the IR inside the FFT buffer: room for the pre-ringing of the
-   zero-phase bank (wraps to the buffer end) and the ring-out past the IR end. The 63/125 Hz
+   zero-phase bank (wraps to the buffer end) and the ring-out past the IR end. A kernel of
+   half-length L stays clear of the IR when L <= 2 x pad (the pre-ringing of the earliest
+   Dirac wraps into the end padding, the ring-out of the last fills it), and the 63/125 Hz
    crossover kernel (20 Hz wide transition) has decayed by far more than 100 dB after 150 ms. */
-constexpr double kPadS = 0.15;
+constexpr double kPadS = 0.075;
 /* The specular grid is short, so it affords a longer padding: the 63 Hz band's kernel tail
    still moves the group delay by a few 1/100 sample between 150 and 300 ms. */
 constexpr double kSpecularPadS = 0.30;
@@ -215,7 +217,7 @@ Vec3 DrawArrival(const ReceiverHistogram& hist, double t, pcg32& rng) {
    crossover edge top_b = fc_b 2^w, so the band's signal is exactly representable on a grid of
    step R_b samples whenever fs / (2 R_b) > top_b. Each band is therefore synthesised on its
    own grid of M / R_b points (M the full grid): the Dirac train is brought onto it by a
-   Kaiser-windowed-sinc decimation kernel (flat to ~1e-4 up to top_b, -80 dB from
+   Kaiser-windowed-sinc decimation kernel (flat to ~1e-3 up to top_b, -60 dB from
    fs / R_b - top_b on, so nothing aliases into the band), band filtered there by the same
    zero-phase magnitudes, energy-corrected there (the correction varies on the band's time
    scale 8/B, far slower than the grid step), and its spectrum is placed into the full grid's
@@ -223,10 +225,11 @@ Vec3 DrawArrival(const ReceiverHistogram& hist, double t, pcg32& rng) {
    rate (exact band-limited interpolation). The top band, which reaches Nyquist, stays on the
    full grid. */
 constexpr double kDecimationMargin = 1.25;   // fs / (2 R) >= margin * top_b
-/* Kernel stop-band rejection: 80 dB for the late part (noise whose band energies are
-   checked to 0.2 dB), 120 dB for the specular part, whose group delay must hold to 1/100
-   sample (a -80 dB alias moves it by a few 1/100 at 63-500 Hz). */
-constexpr double kLateStopDb = 80.0;
+/* Kernel stop-band rejection: 60 dB for the late part (noise whose band energies are
+   checked to 0.2 dB: an alias at -60 dB adds 1e-6 of the energy, the pass-band ripple of
+   ~1e-3 moves it by < 0.01 dB), 120 dB for the specular part, whose group delay must hold
+   to 1/100 sample (a -80 dB alias moves it by a few 1/100 at 63-500 Hz). */
+constexpr double kLateStopDb = 60.0;
 constexpr double kSpecularStopDb = 120.0;
 
 struct DecimatedBand {
@@ -810,10 +813,18 @@ void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& c
     // Per band, the train of pulses: on the full grid for bands that reach Nyquist, else
     // directly on the band's decimated grid (the decimation kernel of the late part; its
     // pass band is flat to ~1e-4 over the band, and it is zero phase, so delays are kept).
+    // The top band, as in the late part, is x - l * x when the band below is decimated: the
+    // pulses themselves go straight to the output, their low-pass l * x (magnitude
+    // 1 - |H_top|) is computed on the band below's grid, so the top band needs no transform of
+    // the full specular grid.
+    const bool complement = !grid->complementMag.empty();
+    const DecimatedBand& below = grid->bands[kBandCount - 2];
     thread_local std::vector<std::vector<float>> train;
-    train.resize(kBandCount);
+    train.resize(kBandCount + 1);  // [kBandCount]: the top band's train on the grid below
     std::array<bool, kBandCount> used{};
-    for (int b = 0; b < kBandCount; ++b) train[b].assign(grid->bands[b].size, 0.0f);
+    for (int b = 0; b < kBandCount; ++b)
+        train[b].assign(complement && b == kBandCount - 1 ? 0 : grid->bands[b].size, 0.0f);
+    train[kBandCount].assign(complement ? below.size : 0, 0.0f);
     std::vector<double> taps(kTaps), pulse;
     for (size_t pi = 0; pi < paths.paths.size(); ++pi) {
         const SpecularPath& p = paths.paths[pi];
@@ -835,13 +846,15 @@ void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& c
             const double amp = std::sqrt(p.energy[b]);
             if (amp == 0) continue;
             used[b] = true;
-            const DecimatedBand& db = grid->bands[b];
+            const bool top = complement && b == kBandCount - 1;
+            const DecimatedBand& db = top ? below : grid->bands[b];
             const int r = db.decimation, mc = db.size, h = db.sharpHalfTaps;
-            std::vector<float>& u = train[b];
+            std::vector<float>& u = train[top ? kBandCount : b];
             for (size_t i = 0; i < pulse.size(); ++i) {
                 const long j = n0 - kFractionalDelayHalfTaps + 1 + static_cast<long>(i);
                 if (j < 0 || j >= m) continue;
                 const float x = static_cast<float>(amp * pulse[i]);
+                if (top && j < nSpan) out[j] += x;
                 if (r == 1) {
                     u[j] += x;
                     continue;
@@ -866,17 +879,19 @@ void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& c
     total.assign(m / 2 + 1, 0.0f);
     for (int b = 0; b < kBandCount; ++b) {
         if (!used[b]) continue;
-        const DecimatedBand& db = grid->bands[b];
+        const bool top = complement && b == kBandCount - 1;
+        const DecimatedBand& db = top ? below : grid->bands[b];
+        const std::vector<float>& bandMag = top ? grid->complementMag : db.mag;
         RealFft& fft = ThreadRealFft(db.size);
         const int nBins = fft.BinCount();
         spectrum.resize(nBins);
-        fft.Forward(train[b].data(), spectrum.data());
-        const float scale = static_cast<float>(db.decimation);
+        fft.Forward(train[top ? kBandCount : b].data(), spectrum.data());
+        const float scale = static_cast<float>(top ? -db.decimation : db.decimation);
         if (db.decimation == 1) {
-            for (int i = 0; i < nBins; ++i) total[i] += spectrum[i] * db.mag[i];
+            for (int i = 0; i < nBins; ++i) total[i] += spectrum[i] * bandMag[i];
         } else {
-            for (int i = 0; i < nBins - 1; ++i) total[i] += scale * db.mag[i] * spectrum[i];
-            total[nBins - 1] += 0.5f * scale * db.mag[nBins - 1] * spectrum[nBins - 1];
+            for (int i = 0; i < nBins - 1; ++i) total[i] += scale * bandMag[i] * spectrum[i];
+            total[nBins - 1] += 0.5f * scale * bandMag[nBins - 1] * spectrum[nBins - 1];
         }
     }
     thread_local std::vector<float> y;
