@@ -107,11 +107,22 @@ void BoxSmooth(const std::vector<double>& in, int width, std::vector<double>& ou
     // Window of sample i: [i - half, i - half + width), clipped to the signal.
     double sum = 0;
     for (int j = 0; j < std::min(n, width - half); ++j) sum += in[j];
-    for (int i = 0; i < n; ++i) {
+    // The same sliding sum as one loop with both bounds checked, split at the two edges.
+    const int dropFrom = std::min(n, half), addTo = std::max(dropFrom, n - width + half);
+    int i = 0;
+    for (; i < dropFrom; ++i) {
         out[i] = sum * inv;
-        const int add = i - half + width, drop = i - half;
-        if (add < n) sum += in[add];
-        if (drop >= 0) sum -= in[drop];
+        if (i - half + width < n) sum += in[i - half + width];
+    }
+    for (; i < addTo; ++i) {
+        out[i] = sum * inv;
+        sum += in[i - half + width];
+        sum -= in[i - half];
+    }
+    for (; i < n; ++i) {
+        out[i] = sum * inv;
+        if (i - half + width < n) sum += in[i - half + width];
+        sum -= in[i - half];
     }
 }
 
@@ -670,10 +681,7 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
         const int blocks = (mOut + block - 1) / block;
         const int widthB = block == 1 ? width : std::max(3, static_cast<int>(std::lround(static_cast<double>(width) / block)));
         std::vector<double>& gain = ws.gain;
-        if (block == 1) {
-            ws.targetB.assign(ws.target.begin(), ws.target.end());
-            ws.actualB.assign(ws.actual.begin(), ws.actual.end());
-        } else {
+        if (block > 1) {
             ws.targetB.assign(blocks, 0.0);
             ws.actualB.assign(blocks, 0.0);
             for (int n = 0; n < mOut; ++n) {
@@ -682,9 +690,9 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
             }
         }
         // Triangular window of length 2*width: two box passes.
-        BoxSmooth(ws.targetB, widthB, ws.tmp);
+        BoxSmooth(block == 1 ? ws.target : ws.targetB, widthB, ws.tmp);
         BoxSmooth(ws.tmp, widthB, ws.targetS);
-        BoxSmooth(ws.actualB, widthB, ws.tmp);
+        BoxSmooth(block == 1 ? ws.actual : ws.actualB, widthB, ws.tmp);
         BoxSmooth(ws.tmp, widthB, ws.actualS);
         for (int k = 0; k < blocks; ++k) {
             double g = 1.0;
@@ -692,10 +700,11 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
                 g = std::clamp(std::sqrt(ws.targetS[k] / ws.actualS[k]), 0.25, 4.0);
             ws.tmp[k] = g;
         }
-        gain.resize(mOut);
         if (block == 1) {
-            std::copy(ws.tmp.begin(), ws.tmp.begin() + mOut, gain.begin());
+            std::swap(gain, ws.tmp);
+            gain.resize(mOut);
         } else {
+            gain.resize(mOut);
             const double centre = 0.5 * (block - 1);
             for (int n = 0; n < mOut; ++n) {
                 const double pos = (n - centre) / block;
