@@ -15,7 +15,6 @@ namespace hallwright {
 
 namespace {
 
-constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 /* Time zero: the earliest arrival within 20 dB of the broadband peak (ISO 3382-1 Annex A).
    Impulses and 1 ms bins are compared as energies per bin. */
