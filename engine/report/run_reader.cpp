@@ -10,63 +10,12 @@
 
 #include "hallwright/run_compare.h"
 #include "hallwright/scene.h"
+#include "util/csv.h"
 
 namespace hallwright {
 
 namespace {
 
-struct CsvRecord {
-    std::vector<std::string> fields;
-    int line = 0;  // line where the record starts (1-based)
-};
-
-/* RFC 4180 style records: quoted fields may hold commas, doubled quotes and newlines. */
-bool ParseCsv(const std::string& text, const std::string& path, std::vector<CsvRecord>& out, Diagnostics& diag) {
-    int line = 1;
-    size_t i = 0;
-    while (i < text.size()) {
-        CsvRecord rec;
-        rec.line = line;
-        std::string field;
-        bool quoted = false, wasQuoted = false;
-        for (;;) {
-            if (i >= text.size()) {
-                if (quoted) {
-                    diag.Error(SourceLoc{path, rec.line, 0, ""},
-                               "a quoted field is never closed; the file is cut short or garbled — rerun the simulation");
-                    return false;
-                }
-                rec.fields.push_back(field);
-                break;
-            }
-            const char c = text[i++];
-            if (quoted) {
-                if (c == '"') {
-                    if (i < text.size() && text[i] == '"') field += '"', ++i;
-                    else quoted = false;
-                } else {
-                    if (c == '\n') ++line;
-                    field += c;
-                }
-            } else if (c == '"' && field.empty() && !wasQuoted) {
-                quoted = wasQuoted = true;
-            } else if (c == ',') {
-                rec.fields.push_back(field);
-                field.clear();
-                wasQuoted = false;
-            } else if (c == '\n' || c == '\r') {
-                if (c == '\r' && i < text.size() && text[i] == '\n') ++i;
-                ++line;
-                rec.fields.push_back(field);
-                break;
-            } else {
-                field += c;
-            }
-        }
-        if (!(rec.fields.size() == 1 && rec.fields[0].empty())) out.push_back(std::move(rec));
-    }
-    return true;
-}
 
 bool ReadFile(const std::string& path, std::string& text, Diagnostics& diag, const std::string& what) {
     std::ifstream in(path, std::ios::binary);

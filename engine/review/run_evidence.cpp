@@ -22,6 +22,7 @@
 #include "hallwright/review.h"
 #include "hallwright/wav.h"
 #include "review/review_util.h"
+#include "util/csv.h"
 
 namespace hallwright {
 
@@ -72,53 +73,6 @@ constexpr size_t kMaxFlutterSeats = 32;
 /* Focusing: the 1 kHz octave (band index 4). */
 constexpr int kConcentrationBand = 4;
 
-struct CsvRow {
-    std::vector<std::string> fields;
-    int line = 0;
-};
-
-/* RFC 4180 records (quoted fields may hold commas, doubled quotes and newlines). */
-std::vector<CsvRow> ParseCsvRows(const std::string& text) {
-    std::vector<CsvRow> rows;
-    int line = 1;
-    size_t i = 0;
-    while (i < text.size()) {
-        CsvRow row;
-        row.line = line;
-        std::string field;
-        bool quoted = false;
-        for (;;) {
-            if (i >= text.size()) {
-                row.fields.push_back(field);
-                break;
-            }
-            const char ch = text[i++];
-            if (quoted) {
-                if (ch == '"') {
-                    if (i < text.size() && text[i] == '"') field += '"', ++i;
-                    else quoted = false;
-                } else {
-                    if (ch == '\n') ++line;
-                    field += ch;
-                }
-            } else if (ch == '"' && field.empty()) {
-                quoted = true;
-            } else if (ch == ',') {
-                row.fields.push_back(field);
-                field.clear();
-            } else if (ch == '\n' || ch == '\r') {
-                if (ch == '\r' && i < text.size() && text[i] == '\n') ++i;
-                ++line;
-                row.fields.push_back(field);
-                break;
-            } else {
-                field += ch;
-            }
-        }
-        if (!(row.fields.size() == 1 && row.fields[0].empty())) rows.push_back(std::move(row));
-    }
-    return rows;
-}
 
 bool ParseDouble(const std::string& s, double& out) {
     if (s.empty()) return false;
@@ -289,7 +243,8 @@ FlutterEvidence FlutterFromImpulseResponse(const std::vector<float>& samples, in
 
 std::optional<ReceiverPaths> ParsePathsCsv(const std::string& text, const std::string& path, const Scene& scene,
                                            const Geometry& geometry, int source, int receiver, Diagnostics& diag) {
-    const std::vector<CsvRow> rows = ParseCsvRows(text);
+    std::vector<CsvRecord> rows;
+    if (!ParseCsv(text, path, rows, diag)) return std::nullopt;
     std::vector<std::string> header = {"order", "delay_s"};
     for (int b = 0; b < kBandCount; ++b) header.push_back("e" + std::to_string(kNominalBandHz[b]));
     for (const char* h : {"dir_x", "dir_y", "dir_z", "faces", "groups"}) header.push_back(h);
@@ -305,7 +260,7 @@ std::optional<ReceiverPaths> ParsePathsCsv(const std::string& text, const std::s
     rp.receiver = receiver;
     rp.directOccluded = true;
     for (size_t i = 1; i < rows.size(); ++i) {
-        const CsvRow& row = rows[i];
+        const CsvRecord& row = rows[i];
         auto bad = [&](const std::string& what) {
             diag.Error(SourceLoc{path, row.line, 0, ""},
                        what + "; the file is damaged or edited by hand — rerun `hallwright simulate` with --paths");
