@@ -16,7 +16,6 @@ namespace hallwright {
 
 namespace {
 
-
 bool ReadFile(const std::string& path, std::string& text, Diagnostics& diag, const std::string& what) {
     std::ifstream in(path, std::ios::binary);
     if (!in) {
