@@ -7,6 +7,7 @@
 #include <map>
 #include <set>
 
+#include "hallwright/spatial_seats.h"
 #include "hallwright/zones.h"
 
 namespace hallwright {
@@ -56,15 +57,6 @@ std::string Csv(const std::string& s) {
 }
 
 std::string BandLabel(int band) { return band == 0 ? "avg" : std::to_string(band); }
-
-/* Zones in order of first appearance among the receivers. */
-std::vector<std::string> ZoneOrder(const Scene& scene) {
-    std::vector<std::string> zones;
-    std::set<std::string> seen;
-    for (const auto& r : scene.receivers)
-        if (seen.insert(r.zone).second) zones.push_back(r.zone);
-    return zones;
-}
 
 /* (parameter, band) keys summarised per zone: band rows of reported bands, then single numbers. */
 std::vector<std::pair<std::string, int>> ZoneKeys(const Scene& scene) {

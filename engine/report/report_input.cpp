@@ -7,6 +7,7 @@
 
 #include "hallwright/metrics.h"
 #include "hallwright/report.h"
+#include "hallwright/spatial_seats.h"
 #include "hallwright/zones.h"
 
 namespace hallwright {
@@ -57,15 +58,6 @@ std::vector<char> UnderOverhang(const Scene& scene, const Geometry& geometry) {
     for (size_t i = 0; i < scene.receivers.size(); ++i)
         out[i] = RoomBeyondFirstSurface(geometry, scene.receivers[i].position, kUp) ? 1 : 0;
     return out;
-}
-
-/* Zones in order of first appearance among the receivers. */
-std::vector<std::string> ZoneOrder(const Scene& scene) {
-    std::vector<std::string> zones;
-    std::set<std::string> seen;
-    for (const auto& r : scene.receivers)
-        if (seen.insert(r.zone).second) zones.push_back(r.zone);
-    return zones;
 }
 
 std::string TableName(const std::string& parameter, int band) {

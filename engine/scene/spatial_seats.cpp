@@ -11,13 +11,6 @@ namespace hallwright {
 
 namespace {
 
-std::vector<std::string> ZonesInOrder(const Scene& scene) {
-    std::vector<std::string> zones;
-    for (const auto& r : scene.receivers)
-        if (std::find(zones.begin(), zones.end(), r.zone) == zones.end()) zones.push_back(r.zone);
-    return zones;
-}
-
 int NearestTo(const Scene& scene, const std::string& zone, const Vec3& p) {
     int best = -1;
     double bestD = std::numeric_limits<double>::infinity();
@@ -31,9 +24,16 @@ int NearestTo(const Scene& scene, const std::string& zone, const Vec3& p) {
 
 }  // namespace
 
+std::vector<std::string> ZoneOrder(const Scene& scene) {
+    std::vector<std::string> zones;
+    for (const auto& r : scene.receivers)
+        if (std::find(zones.begin(), zones.end(), r.zone) == zones.end()) zones.push_back(r.zone);
+    return zones;
+}
+
 std::vector<int> SeatsNearZoneCentroids(const Scene& scene) {
     std::vector<int> chosen;
-    for (const std::string& zone : ZonesInOrder(scene)) {
+    for (const std::string& zone : ZoneOrder(scene)) {
         Vec3 centre = Vec3::Zero();
         int n = 0;
         for (const auto& r : scene.receivers)
@@ -64,7 +64,7 @@ std::vector<int> ChooseSpatialSeats(const Scene& scene, Diagnostics& diag) {
     // Then spatial_per_zone seats per zone.
     const int perZone = scene.output.spatialPerZone;
     const std::vector<int> centroidSeats = SeatsNearZoneCentroids(scene);
-    const std::vector<std::string> zones = ZonesInOrder(scene);
+    const std::vector<std::string> zones = ZoneOrder(scene);
     for (size_t z = 0; z < zones.size() && perZone > 0; ++z) {
         std::vector<int> zoneSeats;
         for (int i = 0; i < static_cast<int>(scene.receivers.size()); ++i)

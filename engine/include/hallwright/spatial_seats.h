@@ -1,12 +1,16 @@
 #pragma once
-// Which seats get more than a mono IR: decay curves in the report (one per zone) and AmbiX /
+// Zone order, and which seats get more than a mono IR: decay curves in the report (one per zone) and AmbiX /
 // binaural files ([output] spatial_seats and spatial_per_zone, scene.h).
+#include <string>
 #include <vector>
 
 #include "hallwright/diagnostics.h"
 #include "hallwright/scene.h"
 
 namespace hallwright {
+
+/* Zone names in order of first appearance among the receivers (the order of every table). */
+std::vector<std::string> ZoneOrder(const Scene& scene);
 
 /* Per zone (in order of first appearance), the seat nearest the zone's centroid. */
 std::vector<int> SeatsNearZoneCentroids(const Scene& scene);
