@@ -242,6 +242,7 @@ constexpr double kDecimationMargin = 1.25;   // fs / (2 R) >= margin * top_b
    to 1/100 sample (a -80 dB alias moves it by a few 1/100 at 63-500 Hz). */
 constexpr double kLateStopDb = 60.0;
 constexpr double kSpecularStopDb = 120.0;
+constexpr double kInterpolationStopDb = 80.0;
 
 struct DecimatedBand {
     int decimation = 1;         // R: grid step in full-rate samples
@@ -260,6 +261,13 @@ struct LateGrid {
     /* 1 - |H_top|, the sum of the lower bands, on the grid of the band below the top one
        (empty when that band is not decimated): see the top band in AddLatePart. */
     std::vector<float> complementMag;
+    /* Band-limited interpolation from the grid below to the full rate (used when every lower
+       band's grid is coarser, so its bins are a subset of that grid's): the decimation kernel
+       of the band below at 80 dB, so the late part's sum is formed on that grid and never on
+       the full one. */
+    bool coarseSum = false;
+    int interpHalfTaps = 0;
+    std::vector<float> interpKernel;
 };
 
 /* Grid step of band b's late part: the largest 3 * 2^k with fs / (2 R) >= margin * top_b; the
@@ -367,6 +375,12 @@ std::shared_ptr<const LateGrid> MakeLateGrid(int m, int sampleRate) {
     }
     const DecimatedBand& below = grid->bands[kBandCount - 2];
     if (below.decimation > 1) {
+        const double top = CrossoverHz(kBandCount - 2) * std::exp2(kCrossoverHalfWidthOct);
+        MakeDecimationKernel(below.decimation, top, fs, kInterpolationStopDb, grid->interpHalfTaps,
+                             grid->interpKernel);
+        grid->coarseSum = true;
+        for (int b = 0; b < kBandCount - 2; ++b)
+            grid->coarseSum = grid->coarseSum && grid->bands[b].decimation > below.decimation;
         grid->complementMag.resize(below.mag.size());
         for (size_t i = 0; i < below.mag.size(); ++i)
             grid->complementMag[i] = static_cast<float>(
@@ -394,7 +408,7 @@ std::shared_ptr<const LateGrid> LateGridFor(int m, int sampleRate) {
 /* Band-limited interpolation of a grid signal y (step r) to the full rate: its spectrum,
    times r, added into the full grid's spectrum `full` (the grid's Nyquist bin split in half
    between its two images). */
-void EmbedGridSpectrum(RealFft& fft, std::vector<float>& y, int r, std::vector<std::complex<float>>& spectrum,
+void EmbedGridSpectrum(RealFft& fft, std::vector<float>& y, double r, std::vector<std::complex<float>>& spectrum,
                        std::vector<std::complex<float>>& full) {
     const int nBins = fft.BinCount();
     spectrum.resize(nBins);
@@ -417,7 +431,7 @@ struct LateWorkspace {
     std::vector<std::array<float, 4>> eventGain;
     std::vector<size_t> order;
     std::vector<double> target, actual, actualC, targetB, actualB, targetS, actualS, tmp, gain;
-    std::vector<float> y, xb;
+    std::vector<float> y, xb, interp;
     std::vector<std::vector<float>> shared;  // the grid shared by the top band and the one below
 };
 
@@ -530,7 +544,8 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
     ws.spectra.resize(channels);
     const int fullBins = m / 2 + 1;
     bool anyDecimated = false;
-    for (int ch = 0; ch < channels; ++ch) ws.spectra[ch].assign(fullBins, 0.0f);
+    const bool coarse = grid.coarseSum;
+    for (int ch = 0; ch < channels; ++ch) ws.spectra[ch].assign(coarse ? grid.bands[kBandCount - 2].size / 2 + 1 : fullBins, 0.0f);
     // The top band (up to Nyquist) is x - l * x, x its Dirac train and l the low-pass with
     // magnitude 1 - |H_top| (zero above the band below's top edge): x stays a sparse train at
     // the full rate, l * x is computed on the grid of the band below, whose output it shares
@@ -768,8 +783,57 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
                 sharedUsed = true;
                 continue;
             }
-            EmbedGridSpectrum(fft, y, r, ws.spectrum, ws.spectra[ch]);
+            // On the coarse sum's grid (step R_s) the band's spectrum weighs R / R_s.
+            EmbedGridSpectrum(fft, y, coarse ? static_cast<double>(r) / below.decimation : r, ws.spectrum,
+                              ws.spectra[ch]);
         }
+    }
+    if (coarse) {
+        // The sum of the lower bands on the grid below (one inverse transform of that size),
+        // plus the shared grid's signal, then interpolated to the full rate with the 80 dB
+        // kernel (its pass band covers everything below the top band's lower edge).
+        if (!anyDecimated && !sharedUsed) return;
+        RealFft& fft = ThreadRealFft(below.size);
+        const int rs = below.decimation, mc = below.size, h = grid.interpHalfTaps;
+        ws.full.resize(1);
+        ws.full[0].resize(mc);
+        std::vector<float>& g = ws.full[0];
+        for (int ch = 0; ch < channels; ++ch) {
+            if (anyDecimated) fft.Inverse(ws.spectra[ch].data(), g.data());
+            else std::fill(g.begin(), g.end(), 0.0f);
+            if (sharedUsed)
+                for (int k = 0; k < mc; ++k) g[k] += ws.shared[ch][k];
+            // Grid points m0 = 0 .. mOut - 1 give the output samples m0 R_s + phase. The grid
+            // is circular: a copy with h - 1 points before and h after avoids index wraps, and
+            // per phase the taps run as contiguous multiply-adds over all grid points.
+            const int mOut = (nOut + rs - 1) / rs;
+            std::vector<float>& gp = ws.y;
+            gp.resize(static_cast<size_t>(mOut) + 2 * h);
+            for (int k = 0; k < mOut + 2 * h - 1; ++k) {
+                int idx = k - h + 1;
+                if (idx < 0 || idx >= mc) idx = (idx % mc + mc) % mc;
+                gp[k] = g[idx];
+            }
+            std::vector<float>& acc = ws.interp;
+            acc.resize(mOut);
+            std::vector<float>& o = outs[ch];
+            for (int phase = 0; phase < rs; ++phase) {
+                const float* kern = &grid.interpKernel[static_cast<size_t>(phase) * 2 * h];
+                if (phase == 0) {
+                    // Kernel taps at whole grid steps are those of sinc(j): 1 at the centre, 0 else.
+                    for (int m0 = 0; m0 < mOut; ++m0) acc[m0] = gp[m0 + h - 1];
+                } else {
+                    std::fill(acc.begin(), acc.end(), 0.0f);
+                    for (int j = 0; j < 2 * h; ++j) {
+                        const float kj = static_cast<float>(rs) * kern[j];
+                        const float* src = &gp[j];
+                        for (int m0 = 0; m0 < mOut; ++m0) acc[m0] += kj * src[m0];
+                    }
+                }
+                for (int m0 = 0, n = phase; m0 < mOut && n < nOut; ++m0, n += rs) o[n] += acc[m0];
+            }
+        }
+        return;
     }
     if (sharedUsed) {
         RealFft& fft = ThreadRealFft(below.size);
