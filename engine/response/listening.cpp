@@ -3,6 +3,8 @@
 
 #include <algorithm>
 #include <cmath>
+#include <optional>
+#include <string>
 
 namespace hallwright {
 
@@ -15,11 +17,21 @@ ListeningSet RenderListeningSet(const WavData& dry, const std::vector<WavData>& 
     }
     // Each render normalised on its own first; the smallest of those gains (the loudest
     // render) then serves all, so render i is scaled by 10^((gMin - g_i) / 20) <= 1.
+    // The IRs of one run share a sample rate: the dry recording is resampled once, not per IR.
+    std::optional<WavData> resampled;
+    std::vector<std::string> notes;
+    if (dry.sampleRate != irs[0].sampleRate && dry.sampleRate > 0) {
+        resampled = ResampleTo(dry, irs[0].sampleRate, diag);
+        if (!resampled) return set;
+        notes.push_back("the dry recording was resampled from " + std::to_string(dry.sampleRate) + " to " +
+                        std::to_string(irs[0].sampleRate) + " Hz (libsoxr)");
+    }
+    const WavData& input = resampled ? *resampled : dry;
     AuralizeOptions options;
     options.peakDbfs = peakDbfs;
     std::vector<AuralizeResult> results;
     for (const WavData& ir : irs) {
-        AuralizeResult r = Auralize(dry, ir, options, diag);
+        AuralizeResult r = Auralize(input, ir, options, diag);
         if (!r.ok) return set;
         results.push_back(std::move(r));
     }
@@ -36,7 +48,8 @@ ListeningSet RenderListeningSet(const WavData& dry, const std::vector<WavData>& 
         set.renders.push_back(std::move(r.output));
     }
     set.gainDb = gainMin;
-    set.notes = results[0].notes;
+    set.notes = notes;
+    set.notes.insert(set.notes.end(), results[0].notes.begin(), results[0].notes.end());
     set.ok = true;
     return set;
 }

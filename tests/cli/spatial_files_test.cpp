@@ -202,28 +202,27 @@ TEST(SimulateListen, UnreadableDryRecordingFailsBeforeTheRun) {
     EXPECT_FALSE(fs::exists(fs::path(dir) / "run/run.json"));
 }
 
-TEST(SpatialSeatsKey, UnknownSeatNameIsAnErrorAtItsLine) {
-    const std::string dir = test::TempDir("spatial_files/bad_name");
+/* A one-seat box whose scene file ends with `outputLine` on line 10, under [output]. */
+std::string WriteOneSeatScene(const std::string& name, const std::string& outputLine) {
+    const std::string dir = test::TempDir("spatial_files/" + name);
     test::WriteFile(dir, "box.obj", test::BoxObj(10, 4, 10));
-    const std::string scene = test::WriteFile(
-        dir, "scene.toml",
-        "[model]\nmesh = \"box.obj\"\n[[source]]\nname = \"src\"\nposition = [2, 1.5, 5]\n"
-        "[[receiver]]\nname = \"left\"\nposition = [5, 1.2, 5]\n"
-        "[output]\nspatial_seats = [\"lefft\"]\n");
-    const auto r = RunHallwright("simulate " + scene + " --out " + dir + "/out --quiet");
+    return test::WriteFile(dir, "scene.toml",
+                           "[model]\nmesh = \"box.obj\"\n[[source]]\nname = \"src\"\nposition = [2, 1.5, 5]\n"
+                           "[[receiver]]\nname = \"left\"\nposition = [5, 1.2, 5]\n[output]\n" +
+                               outputLine + "\n");
+}
+
+TEST(SpatialSeatsKey, UnknownSeatNameIsAnErrorAtItsLine) {
+    const std::string scene = WriteOneSeatScene("bad_name", "spatial_seats = [\"lefft\"]");
+    const auto r = RunHallwright("simulate " + scene + " --out " + fs::path(scene).parent_path().string() +
+                                 "/out --quiet");
     EXPECT_NE(r.exitCode, 0);
     EXPECT_NE(r.err.find(scene + ":10:"), std::string::npos) << r.err;
     EXPECT_NE(r.err.find("did you mean \"left\""), std::string::npos) << r.err;
 }
 
 TEST(SpatialSeatsKey, MissingHrtfFileIsAnErrorAtItsLine) {
-    const std::string dir = test::TempDir("spatial_files/bad_hrtf");
-    test::WriteFile(dir, "box.obj", test::BoxObj(10, 4, 10));
-    const std::string scene = test::WriteFile(
-        dir, "scene.toml",
-        "[model]\nmesh = \"box.obj\"\n[[source]]\nname = \"src\"\nposition = [2, 1.5, 5]\n"
-        "[[receiver]]\nname = \"left\"\nposition = [5, 1.2, 5]\n"
-        "[output]\nhrtf = \"ears.sofa\"\n");
+    const std::string scene = WriteOneSeatScene("bad_hrtf", "hrtf = \"ears.sofa\"");
     const auto r = RunHallwright("inspect " + scene);
     EXPECT_NE(r.exitCode, 0);
     EXPECT_NE(r.err.find(scene + ":10:"), std::string::npos) << r.err;
