@@ -327,7 +327,8 @@ BandParameters ComputeBandParameters(const BandInput& bi) {
     const EnvelopeIntegrator in(*bi.omni);
     const double t0 = bi.timeZeroS;
     const double e0 = in.EnergyAfter(t0);
-    out.totalEnergy = in.Total();
+    // G reads the band's own energy (the ratios' envelope when the decay curve has its own).
+    out.totalEnergy = bi.ratios ? EnvelopeIntegrator(*bi.ratios).Total() : in.Total();
     if (!(e0 > 0)) {
         out.edtNote = out.t20Note = out.t30Note = out.energyNote = "no energy after time zero";
         out.lateralNote = out.edtNote;

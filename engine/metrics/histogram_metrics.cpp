@@ -8,6 +8,7 @@
 #include "hallwright/diagnostics.h"
 #include "hallwright/metrics.h"
 #include "hallwright/octave_filter.h"
+#include "hallwright/response.h"
 #include "hallwright/sti.h"
 #include "metrics/parameter_rows.h"
 
@@ -76,6 +77,55 @@ const std::vector<double>& CumulativeKernel(int band) {
         return out;
     }();
     return kernels[band];
+}
+
+/* Spectral selectivity of the same analysis filter: the share of band b and b' (their
+   coherent product) that the filter of band c passes, for a response whose spectrum is the
+   synthesis bank's (response.h: each band's level over its own range, smooth crossovers).
+   W[c][b][b'] = int |A_c|^2 H_b H_b' df / int |A_c|^2 df, so a flat spectrum (all E_b
+   equal) passes unchanged and, in general, the decay curve of band c is
+   sum_{b,b'} W[c][b][b'] sqrt(E_b E_b'). A WAV analysed with class 1 octave filters reads
+   the neighbouring bands' decays in the skirts of each filter (about -13 dB at 500 Hz for
+   the synthesized IR); without this the histogram path's decay times are those of an ideal
+   brick-wall band, which no measurement or WAV analysis reproduces. */
+using LeakageTable = std::array<std::array<std::array<double, kBandCount>, kBandCount>, kBandCount>;
+const LeakageTable& Leakage() {
+    static const LeakageTable table = [] {
+        LeakageTable w{};
+        // 0.25 Hz steps up to Nyquist at kKernelRate: the narrowest crossover (63/125 Hz,
+        // about 20 Hz wide) gets 80 points.
+        constexpr double kStepHz = 0.25;
+        const int steps = static_cast<int>(0.5 * kKernelRate / kStepHz);
+        for (int c = 0; c < kBandCount; ++c) {
+            auto f = OctaveFilter::Design(c, kKernelRate);
+            double norm = 0;
+            std::array<std::array<double, kBandCount>, kBandCount> acc{};
+            std::array<double, kBandCount> h{};
+            for (int i = 1; i < steps; ++i) {
+                const double hz = i * kStepHz;
+                const double a2 = std::norm(f->Response(hz));
+                norm += a2;
+                for (int b = 0; b < kBandCount; ++b) h[b] = SynthesisBandMagnitude(b, hz);
+                for (int b = 0; b < kBandCount; ++b)
+                    for (int bb = 0; bb < kBandCount; ++bb) acc[b][bb] += a2 * h[b] * h[bb];
+            }
+            for (int b = 0; b < kBandCount; ++b)
+                for (int bb = 0; bb < kBandCount; ++bb) w[c][b][bb] = acc[b][bb] / norm;
+        }
+        return w;
+    }();
+    return table;
+}
+
+/* Band c's energy as its analysis filter reads it from per-band energies e_b (sqrt given). */
+double ThroughSkirts(int c, const double* e, const double* root) {
+    const auto& w = Leakage()[c];
+    double s = 0;
+    for (int b = std::max(0, c - 2); b <= std::min(kBandCount - 1, c + 2); ++b) {
+        s += w[b][b] * e[b];
+        if (b + 1 < kBandCount) s += 2.0 * w[b][b + 1] * root[b] * root[b + 1];
+    }
+    return s;
 }
 
 /* The first part of the kernel is kept at a fine time step (as impulses) instead of in the
@@ -177,29 +227,45 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
         return (b == r - 1 - kBatchCount) ? 0.0 : 1.0 / (kBatchCount - 1);
     };
     std::vector<std::array<BandParameters, kBandCount>> results(replicates);
+    std::vector<double> plain(static_cast<size_t>(binCount) * kBandCount), root(plain.size());
     for (int r = 0; r < replicates; ++r) {
         const bool skip = !options.perBatchValues && r >= 1 && r <= kBatchCount;
-        for (int band = 0; band < kBandCount && !skip; ++band) {
+        if (skip) continue;
+        // This replicate's mean histogram, [bin][band], and its square roots.
+        std::fill(plain.begin(), plain.end(), 0.0);
+        for (int b = 0; b < kBatchCount; ++b) {
+            const double w = weights(r, b);
+            if (w == 0) continue;
+            for (int k = 0; k < binCount; ++k)
+                for (int band = 0; band < kBandCount; ++band)
+                    plain[static_cast<size_t>(k) * kBandCount + band] += w * hist.Energy(b, k, band);
+        }
+        for (size_t i = 0; i < plain.size(); ++i) root[i] = std::sqrt(plain[i]);
+        for (int band = 0; band < kBandCount; ++band) {
+            // `exact`: the band's own energy, specular arrivals at their exact times (energy
+            // ratios, Ts, G, LF, MTF). `omni`: the decay curve, as the WAV path's analysis
+            // filter reads it: neighbouring bands through its skirts (Leakage) and each
+            // specular arrival spread over its ringing (AddThroughFilter).
             EnergyEnvelope omni, sq, ab;
             omni.binStartS = 0;
             omni.binWidthS = kBinWidthS;
             omni.bins.assign(binCount, 0.0);
             omni.earliestS = t0;
-            for (int b = 0; b < kBatchCount; ++b) {
-                const double w = weights(r, b);
-                if (w == 0) continue;
-                for (int k = 0; k < binCount; ++k) omni.bins[k] += w * hist.Energy(b, k, band);
+            EnergyEnvelope exact = omni;
+            for (int k = 0; k < binCount; ++k) {
+                const size_t i = static_cast<size_t>(k) * kBandCount;
+                exact.bins[k] = plain[i + band];
+                omni.bins[k] = ThroughSkirts(band, &plain[i], &root[i]);
             }
             int last = binCount;  // end of the tracer's energy (before the specular part)
-            while (last > 0 && omni.bins[last - 1] == 0) --last;
-            // Energy ratios, Ts, LF and the MTF read the ideal band response: specular
-            // arrivals at their exact times (the WAV path offsets its limits by its filter's
-            // delay instead, BandInput::limitOffsetS); decay curves see them through the filter.
-            EnergyEnvelope exact = omni;
+            while (last > 0 && exact.bins[last - 1] == 0) --last;
             for (const SpecularPath& p : paths.paths) {
                 exact.impulses.push_back({p.delayS, p.energy[band]});
-                if (!AddThroughFilter(omni.bins, omni.impulses, 0.0, kBinWidthS, p.delayS, p.energy[band], band))
-                    omni.impulses.push_back({p.delayS, p.energy[band]});
+                double e[kBandCount], rt[kBandCount];
+                for (int b = 0; b < kBandCount; ++b) e[b] = p.energy[b], rt[b] = std::sqrt(e[b]);
+                const double seen = ThroughSkirts(band, e, rt);
+                if (!AddThroughFilter(omni.bins, omni.impulses, 0.0, kBinWidthS, p.delayS, seen, band))
+                    omni.impulses.push_back({p.delayS, seen});
             }
             // The record ends where the tracer's energy ends (rays that all died before the
             // histogram's end leave zeros, which are not a decay): tail and the dynamic-range
@@ -210,10 +276,11 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
                     recordEnd = std::max(recordEnd, std::min(endS, p.delayS + kBinWidthS +
                                          double(CumulativeKernel(band).size()) / kKernelRate));
             if (last == 0 || recordEnd <= t0) recordEnd = endS;  // purely specular: defined throughout
-            omni.bins.resize(static_cast<size_t>(std::lround(std::ceil(recordEnd / kBinWidthS - 1e-9))));
+            const size_t kept = static_cast<size_t>(std::lround(std::ceil(recordEnd / kBinWidthS - 1e-9)));
+            omni.bins.resize(kept);
+            exact.bins.resize(kept);
             FitTail(omni, t0, recordEnd);
-            exact.bins.resize(omni.bins.size());
-            exact.tailStartS = omni.tailStartS, exact.tailRate = omni.tailRate, exact.tailDecay = omni.tailDecay;
+            FitTail(exact, t0, recordEnd);
             BandInput in;
             in.omni = &omni;
             in.ratios = &exact;
