@@ -4,12 +4,14 @@
 #include <cmath>
 #include <cstdio>
 #include <limits>
+#include <utility>
 
 #include "hallwright/diagnostics.h"
 #include "hallwright/metrics.h"
 #include "hallwright/octave_filter.h"
 #include "hallwright/response.h"
 #include "hallwright/sti.h"
+#include "metrics/envelope_integrator.h"
 #include "metrics/parameter_rows.h"
 
 namespace hallwright {
@@ -139,12 +141,14 @@ constexpr int kFineSteps = 32;
 
 /* Adds energy e arriving at time t, spread by the band's kernel: its first kFineSteps steps
    as impulses (at the middle of each step), the rest into bins of width w starting at
-   `start`; false (nothing added) when the spread would leave the bins. */
-bool AddThroughFilter(std::vector<double>& bins, std::vector<TimedEnergy>& impulses, double start, double w,
-                      double t, double e, int band) {
+   `start` (binCount of them), listed as (bin, energy) in `binAdds` in the order they are to
+   be added; false (nothing added) when the spread would leave the bins. */
+bool AddThroughFilter(size_t binCount, std::vector<std::pair<size_t, double>>& binAdds,
+                      std::vector<TimedEnergy>& impulses, double start, double w, double t, double e,
+                      int band) {
     const std::vector<double>& c = CumulativeKernel(band);
     const double span = static_cast<double>(c.size()) / kKernelRate;
-    if (t < start || t + span > start + w * bins.size()) return false;
+    if (t < start || t + span > start + w * binCount) return false;
     auto cumAt = [&](size_t n) { return n == 0 ? 0.0 : (n >= c.size() ? 1.0 : c[n - 1]); };
     auto cum = [&](double x) {  // kernel energy arriving before t + x
         if (x <= 0) return 0.0;
@@ -163,15 +167,24 @@ bool AddThroughFilter(std::vector<double>& bins, std::vector<TimedEnergy>& impul
     const double from = t + static_cast<double>(fineEnd) / kKernelRate;
     const size_t first = static_cast<size_t>((from - start) / w);
     double prev = std::max(fineDone, cum(start + first * w - t));
-    for (size_t k = first; k < bins.size(); ++k) {
+    for (size_t k = first; k < binCount; ++k) {
         const double b = start + (k + 1) * w - t;
         const double next = std::max(fineDone, cum(b));
-        bins[k] += e * (next - prev);
+        binAdds.emplace_back(k, e * (next - prev));
         prev = next;
         if (b >= span) break;
     }
     return true;
 }
+
+/* What the specular paths add to one band, the same in every replicate: the decay curve's
+   impulses and bin shares (through the analysis filter), the exact-time impulses and the
+   lateral ones, and where the specular energy ends. */
+struct SpecularBand {
+    metrics_detail::SortedImpulses omni, exact, lateralSq, lateralAbs;
+    std::vector<std::pair<size_t, double>> omniBinAdds;  // in the order they are added
+    double end = -std::numeric_limits<double>::infinity();
+};
 
 std::string Fmt(const char* fmt, double v) {
     char buf[64];
@@ -227,6 +240,61 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
         return (b == r - 1 - kBatchCount) ? 0.0 : 1.0 / (kBatchCount - 1);
     };
     std::vector<std::array<BandParameters, kBandCount>> results(replicates);
+    // Bands computed: the reported ones and STI's (125 Hz ... 8 kHz = indices 1 ... 7).
+    std::array<bool, kBandCount> needed{};
+    for (int band : options.bands) needed[band] = true;
+    for (int band = 1; band < kBandCount; ++band) needed[band] = true;
+    const bool lateral = lateralAxis && haveLateralRecord;
+
+    // The specular part of each band, once for all replicates.
+    std::array<SpecularBand, kBandCount> specular;
+    {
+        std::vector<TimedEnergy> omniImp, exactImp, sqImp, abImp;
+        for (int band = 0; band < kBandCount; ++band) {
+            if (!needed[band]) continue;
+            SpecularBand& sb = specular[band];
+            omniImp.clear(), exactImp.clear(), sqImp.clear(), abImp.clear();
+            for (const SpecularPath& p : paths.paths) {
+                exactImp.push_back({p.delayS, p.energy[band]});
+                double e[kBandCount], rt[kBandCount];
+                for (int b = 0; b < kBandCount; ++b) e[b] = p.energy[b], rt[b] = std::sqrt(e[b]);
+                const double seen = ThroughSkirts(band, e, rt);
+                if (!AddThroughFilter(static_cast<size_t>(binCount), sb.omniBinAdds, omniImp, 0.0, kBinWidthS,
+                                      p.delayS, seen, band))
+                    omniImp.push_back({p.delayS, seen});
+                if (p.energy[band] > 0)
+                    sb.end = std::max(sb.end, std::min(endS, p.delayS + kBinWidthS +
+                                      double(CumulativeKernel(band).size()) / kKernelRate));
+                if (lateral) {
+                    const double c = p.arrivalFrom.dot(*lateralAxis);
+                    sqImp.push_back({p.delayS, p.energy[band] * c * c});
+                    abImp.push_back({p.delayS, p.energy[band] * std::fabs(c)});
+                }
+            }
+            sb.omni.Assign(omniImp);
+            sb.exact.Assign(exactImp);
+            sb.lateralSq.Assign(sqImp);
+            sb.lateralAbs.Assign(abImp);
+        }
+    }
+
+    // `exact`: the band's own energy, specular arrivals at their exact times (energy ratios,
+    // Ts, G, LF, MTF). `omni`: the decay curve, as the WAV path's analysis filter reads it:
+    // neighbouring bands through its skirts (Leakage) and each specular arrival spread over
+    // its ringing (AddThroughFilter). Their impulses live in `specular`; the envelopes and
+    // integrators are reused from band to band and replicate to replicate.
+    EnergyEnvelope omni, exact, sq, ab;
+    for (EnergyEnvelope* e : {&omni, &exact}) {
+        e->binStartS = 0;
+        e->binWidthS = kBinWidthS;
+        e->earliestS = t0;
+    }
+    for (EnergyEnvelope* e : {&sq, &ab}) {
+        e->binStartS = hist.directDelayS;
+        e->binWidthS = kLateralWindowS / kLateralBins;
+        e->earliestS = t0;
+    }
+    metrics_detail::EnvelopeIntegrator omniIn, exactIn, sqIn, abIn;
     std::vector<double> plain(static_cast<size_t>(binCount) * kBandCount), root(plain.size());
     for (int r = 0; r < replicates; ++r) {
         const bool skip = !options.perBatchValues && r >= 1 && r <= kBatchCount;
@@ -236,22 +304,15 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
         for (int b = 0; b < kBatchCount; ++b) {
             const double w = weights(r, b);
             if (w == 0) continue;
-            for (int k = 0; k < binCount; ++k)
-                for (int band = 0; band < kBandCount; ++band)
-                    plain[static_cast<size_t>(k) * kBandCount + band] += w * hist.Energy(b, k, band);
+            const float* batch = &hist.energy[static_cast<size_t>(b) * binCount * kBandCount];
+            for (size_t i = 0; i < plain.size(); ++i) plain[i] += w * static_cast<double>(batch[i]);
         }
         for (size_t i = 0; i < plain.size(); ++i) root[i] = std::sqrt(plain[i]);
         for (int band = 0; band < kBandCount; ++band) {
-            // `exact`: the band's own energy, specular arrivals at their exact times (energy
-            // ratios, Ts, G, LF, MTF). `omni`: the decay curve, as the WAV path's analysis
-            // filter reads it: neighbouring bands through its skirts (Leakage) and each
-            // specular arrival spread over its ringing (AddThroughFilter).
-            EnergyEnvelope omni, sq, ab;
-            omni.binStartS = 0;
-            omni.binWidthS = kBinWidthS;
-            omni.bins.assign(binCount, 0.0);
-            omni.earliestS = t0;
-            EnergyEnvelope exact = omni;
+            if (!needed[band]) continue;
+            const SpecularBand& sb = specular[band];
+            omni.bins.resize(binCount);
+            exact.bins.resize(binCount);
             for (int k = 0; k < binCount; ++k) {
                 const size_t i = static_cast<size_t>(k) * kBandCount;
                 exact.bins[k] = plain[i + band];
@@ -259,28 +320,20 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
             }
             int last = binCount;  // end of the tracer's energy (before the specular part)
             while (last > 0 && exact.bins[last - 1] == 0) --last;
-            for (const SpecularPath& p : paths.paths) {
-                exact.impulses.push_back({p.delayS, p.energy[band]});
-                double e[kBandCount], rt[kBandCount];
-                for (int b = 0; b < kBandCount; ++b) e[b] = p.energy[b], rt[b] = std::sqrt(e[b]);
-                const double seen = ThroughSkirts(band, e, rt);
-                if (!AddThroughFilter(omni.bins, omni.impulses, 0.0, kBinWidthS, p.delayS, seen, band))
-                    omni.impulses.push_back({p.delayS, seen});
-            }
+            for (const auto& [k, v] : sb.omniBinAdds) omni.bins[k] += v;
             // The record ends where the tracer's energy ends (rays that all died before the
             // histogram's end leave zeros, which are not a decay): tail and the dynamic-range
             // rule are read there.
-            double recordEnd = last * kBinWidthS;
-            for (const SpecularPath& p : paths.paths)
-                if (p.energy[band] > 0)
-                    recordEnd = std::max(recordEnd, std::min(endS, p.delayS + kBinWidthS +
-                                         double(CumulativeKernel(band).size()) / kKernelRate));
+            double recordEnd = std::max(last * kBinWidthS, sb.end);
             if (last == 0 || recordEnd <= t0) recordEnd = endS;  // purely specular: defined throughout
             const size_t kept = static_cast<size_t>(std::lround(std::ceil(recordEnd / kBinWidthS - 1e-9)));
             omni.bins.resize(kept);
             exact.bins.resize(kept);
-            FitTail(omni, t0, recordEnd);
-            FitTail(exact, t0, recordEnd);
+            for (EnergyEnvelope* e : {&omni, &exact}) e->tailStartS = 0, e->tailRate = 0, e->tailDecay = 0;
+            omniIn.Build(omni, sb.omni);
+            exactIn.Build(exact, sb.exact);
+            metrics_detail::FitTailWith(omni, omniIn, t0, recordEnd);
+            metrics_detail::FitTailWith(exact, exactIn, t0, recordEnd);
             BandInput in;
             in.omni = &omni;
             in.ratios = &exact;
@@ -288,13 +341,9 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
             in.endS = recordEnd;
             in.gridS = 0.0005;  // the WAV path's decay-curve grid (wav_metrics.h)
             in.referenceEnergy = kReferenceEnergy10m;
-            if (lateralAxis && haveLateralRecord) {
-                for (EnergyEnvelope* e : {&sq, &ab}) {
-                    e->binStartS = hist.directDelayS;
-                    e->binWidthS = kLateralWindowS / kLateralBins;
-                    e->bins.assign(kLateralBins, 0.0);
-                    e->earliestS = t0;
-                }
+            if (lateral) {
+                sq.bins.assign(kLateralBins, 0.0);
+                ab.bins.assign(kLateralBins, 0.0);
                 for (int b = 0; b < kBatchCount; ++b) {
                     const double w = weights(r, b);
                     if (w == 0) continue;
@@ -304,19 +353,17 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
                         ab.bins[k] += w * hist.lateralAbs[i];
                     }
                 }
-                for (const SpecularPath& p : paths.paths) {
-                    const double c = p.arrivalFrom.dot(*lateralAxis);
-                    const double esq = p.energy[band] * c * c, eab = p.energy[band] * std::fabs(c);
-                    sq.impulses.push_back({p.delayS, esq});
-                    ab.impulses.push_back({p.delayS, eab});
-                }
+                sqIn.Build(sq, sb.lateralSq);
+                abIn.Build(ab, sb.lateralAbs);
                 in.lateralSq = &sq;
                 in.lateralAbs = &ab;
                 // The tracer's lateral record covers [direct, direct + 100 ms).
                 in.lateralValidFromS = hist.directDelayS;
                 in.lateralValidToS = hist.directDelayS + kLateralWindowS;
             }
-            results[r][band] = ComputeBandParameters(in);
+            results[r][band] = metrics_detail::ComputeBandParametersWith(in, omniIn, exactIn,
+                                                                         lateral ? &sqIn : nullptr,
+                                                                         lateral ? &abIn : nullptr);
             results[r][band].recordEndS = recordEnd;
             if (!in.lateralSq) results[r][band].lateralNote = lateralNote;
         }
