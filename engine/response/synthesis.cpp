@@ -38,6 +38,9 @@ constexpr double kKaiserBeta = 8.0;
    bandwidth B cannot hold an independent energy per interval shorter than ~1/B. */
 constexpr double kCorrectionBandwidthPeriods = 8.0;
 constexpr double kMinCorrectionWindowS = 0.002;
+/* The second, slow correction stage: 64 periods of the bandwidth, at least 40 ms. */
+constexpr double kLongCorrectionPeriods = 16.0;
+constexpr double kMinLongCorrectionWindowS = 0.010;
 /* Longest IR accepted (memory guard: 8 band buffers of this length are held at once). */
 constexpr double kMaxLengthS = 120.0;
 
@@ -124,6 +127,36 @@ void BoxSmooth(const std::vector<double>& in, int width, std::vector<double>& ou
         if (i - half + width < n) sum += in[i - half + width];
         sum -= in[i - half];
     }
+}
+
+/* The quadrature (Hilbert) part of a rotated reflection is faded in between these
+   frequencies: zero at DC, whole from 40 Hz on (below the 63 Hz band's lower edge, 44 Hz).
+   A wide fade keeps its time response short (the phase ramp it makes moves the 63 Hz group
+   delay by ~2/100 sample; a 10-30 Hz fade moved it twice as far)... */
+constexpr double kQuadratureZeroHz = 4.0;
+constexpr double kQuadratureFullHz = 40.0;
+/* ... and faded out again over the last 10 % below Nyquist (above every analysis band), so
+   that its spectrum has no step at either end and its time response stays compact. */
+constexpr double kQuadratureTopShare = 0.9;
+
+/* Reflection phase of path `index` of one (source, receiver): uniform in [0, 2 pi), from a
+   stream that depends on nothing else, so every channel of the seat gets the same phase. */
+double ReflectionPhase(const SynthesisContext& ctx, size_t index) {
+    const uint64_t key = Mix64(Mix64(ctx.seed ^ 0x9A5E0F1Cull) ^
+                               ((static_cast<uint64_t>(static_cast<uint32_t>(ctx.source)) << 32) |
+                                static_cast<uint32_t>(ctx.receiver)));
+    const uint64_t bits = Mix64(key ^ Mix64(static_cast<uint64_t>(index) + 1));
+    return 2.0 * kPi * static_cast<double>(bits >> 11) * (1.0 / 9007199254740992.0);
+}
+
+/* Phases of the specular paths (response.h, coherentReflections): 0 for the direct sound
+   (and for every path when coherent), else ReflectionPhase. */
+std::vector<double> ReflectionPhases(const ReceiverPaths& paths, const SynthesisContext& ctx) {
+    std::vector<double> phase(paths.paths.size(), 0.0);
+    if (ctx.coherentReflections) return phase;
+    for (size_t i = 0; i < phase.size(); ++i)
+        if (paths.paths[i].order > 0) phase[i] = ReflectionPhase(ctx, i);
+    return phase;
 }
 
 /* Validates the inputs; false with an error naming the problem. */
@@ -729,6 +762,26 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
                 gain[n] = g0 + f * (g1 - g0);
             }
         }
+        // Second stage on a long time scale: the ratio gain's bias depends on how densely
+        // the Dirac responses overlap (none where they are sparse, early; a few per cent where
+        // they are dense), so one scalar would leave the early part too loud and the late
+        // part too quiet by a few tenths of a dB. Over kLongCorrectionPeriods windows the
+        // smoothed energies barely fluctuate, so sqrt(expected / achieved) there removes that
+        // drift without a bias of its own and varies far too slowly to touch the band limits.
+        {
+            const int longFull = static_cast<int>(std::max(kMinLongCorrectionWindowS,
+                                                           kLongCorrectionPeriods / bandwidth) * fs / 2);
+            const int longW = std::max(3, static_cast<int>(std::lround(static_cast<double>(longFull) / r)));
+            ws.tmp.resize(mOut);
+            for (int n = 0; n < mOut; ++n) ws.tmp[n] = gain[n] * gain[n] * ws.actual[n];
+            BoxSmooth(ws.tmp, longW, ws.actualS);
+            BoxSmooth(ws.actualS, longW, ws.tmp);
+            BoxSmooth(ws.target, longW, ws.actualS);
+            BoxSmooth(ws.actualS, longW, ws.targetS);
+            for (int n = 0; n < mOut; ++n)
+                if (ws.tmp[n] > 1e-300 && ws.targetS[n] > 1e-300)
+                    gain[n] *= std::clamp(std::sqrt(ws.targetS[n] / ws.tmp[n]), 0.5, 2.0);
+        }
         double achieved = 0;
         for (int n = 0; n < mOut; ++n) achieved += gain[n] * gain[n] * ws.actual[n];
         achieved *= r;
@@ -890,15 +943,25 @@ void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& c
     // pulses themselves go straight to the output, their low-pass l * x (magnitude
     // 1 - |H_top|) is computed on the band below's grid, so the top band needs no transform of
     // the full specular grid.
+    // A path rotated by phi (response.h, coherentReflections) adds cos(phi) of its pulse to
+    // these trains and sin(phi) of it to a second set, the quadrature trains, whose spectra
+    // are turned by -j (the Hilbert transform) before they join the sum. The top band's
+    // quadrature train stays on the full grid (the Hilbert transform of a sparse train is not
+    // sparse), filtered there by |H_top|.
     const bool complement = !grid->complementMag.empty();
     const DecimatedBand& below = grid->bands[kBandCount - 2];
-    thread_local std::vector<std::vector<float>> train;
+    thread_local std::vector<std::vector<float>> train, quad;
     train.resize(kBandCount + 1);  // [kBandCount]: the top band's train on the grid below
-    std::array<bool, kBandCount> used{};
-    for (int b = 0; b < kBandCount; ++b)
-        train[b].assign(complement && b == kBandCount - 1 ? 0 : grid->bands[b].size, 0.0f);
+    quad.resize(kBandCount);       // the top band's on the full grid when `complement`
+    std::array<bool, kBandCount> used{}, usedQuad{};
+    for (int b = 0; b < kBandCount; ++b) {
+        const bool top = complement && b == kBandCount - 1;
+        train[b].assign(top ? 0 : grid->bands[b].size, 0.0f);
+        quad[b].clear();
+    }
     train[kBandCount].assign(complement ? below.size : 0, 0.0f);
     std::vector<double> taps(kTaps), pulse;
+    const std::vector<double> phases = ReflectionPhases(paths, ctx);
     for (size_t pi = 0; pi < paths.paths.size(); ++pi) {
         const SpecularPath& p = paths.paths[pi];
         const std::vector<float>& kernel = kernels[pi];
@@ -915,6 +978,9 @@ void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& c
         pulse.assign(kTaps + kernel.size() - 1, 0.0);
         for (int i = 0; i < kTaps; ++i)
             for (size_t k = 0; k < kernel.size(); ++k) pulse[i + k] += taps[i] * kernel[k];
+        const double phi = phases[pi];
+        const double cosPhi = std::cos(phi), sinPhi = std::sin(phi);
+        const bool rotated = phi != 0.0;
         for (int b = 0; b < kBandCount; ++b) {
             const double amp = std::sqrt(p.energy[b]);
             if (amp == 0) continue;
@@ -923,22 +989,37 @@ void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& c
             const DecimatedBand& db = top ? below : grid->bands[b];
             const int r = db.decimation, mc = db.size, h = db.sharpHalfTaps;
             std::vector<float>& u = train[top ? kBandCount : b];
+            std::vector<float>& v = quad[b];
+            if (rotated && !usedQuad[b]) {
+                usedQuad[b] = true;
+                v.assign(top ? m : mc, 0.0f);
+            }
             for (size_t i = 0; i < pulse.size(); ++i) {
                 const long j = n0 - kFractionalDelayHalfTaps + 1 + static_cast<long>(i);
                 if (j < 0 || j >= m) continue;
-                const float x = static_cast<float>(amp * pulse[i]);
-                if (top && j < nSpan) out[j] += x;
+                const float x = static_cast<float>(amp * cosPhi * pulse[i]);
+                const float xq = static_cast<float>(amp * sinPhi * pulse[i]);
+                if (top) {
+                    if (j < nSpan) out[j] += x;
+                    if (rotated) v[j] += xq;
+                }
                 if (r == 1) {
                     u[j] += x;
+                    if (rotated) v[j] += xq;
                     continue;
                 }
                 const int m0 = static_cast<int>(j / r), phase = static_cast<int>(j - static_cast<long>(m0) * r);
                 const float* kern = &db.sharpKernel[static_cast<size_t>(phase) * 2 * h];
                 const int q = m0 - h + 1;
+                const bool quadHere = rotated && !top;
                 if (q >= 0 && q + 2 * h <= mc) {
                     for (int t = 0; t < 2 * h; ++t) u[q + t] += x * kern[t];
+                    if (quadHere)
+                        for (int t = 0; t < 2 * h; ++t) v[q + t] += xq * kern[t];
                 } else {
                     for (int t = 0; t < 2 * h; ++t) u[((q + t) % mc + mc) % mc] += x * kern[t];
+                    if (quadHere)
+                        for (int t = 0; t < 2 * h; ++t) v[((q + t) % mc + mc) % mc] += xq * kern[t];
                 }
             }
         }
@@ -948,8 +1029,21 @@ void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& c
     if (!any) return;
     // Band filter each train on its grid and place its spectrum (times R: band-limited
     // interpolation) into the full grid's; one inverse FFT gives the sum at the full rate.
+    // Quadrature spectra are multiplied by -j and by a high-pass that takes them to zero at
+    // DC (the Hilbert transform's sign step there would ring for the whole grid); it is 1
+    // from kQuadratureFullHz on, below every analysis band.
     thread_local std::vector<std::complex<float>> total, spectrum;
     total.assign(m / 2 + 1, 0.0f);
+    const std::complex<float> minusJ(0.0f, -1.0f);
+    auto quadratureGain = [&](int i) {
+        const double f = static_cast<double>(i) * fs / m, top = kQuadratureTopShare * 0.5 * fs;
+        if (f <= kQuadratureZeroHz || f >= 0.5 * fs) return 0.0f;
+        if (f < kQuadratureFullHz)
+            return static_cast<float>(0.5 - 0.5 * std::cos(kPi * (f - kQuadratureZeroHz) /
+                                                            (kQuadratureFullHz - kQuadratureZeroHz)));
+        if (f > top) return static_cast<float>(0.5 + 0.5 * std::cos(kPi * (f - top) / (0.5 * fs - top)));
+        return 1.0f;
+    };
     for (int b = 0; b < kBandCount; ++b) {
         if (!used[b]) continue;
         const bool top = complement && b == kBandCount - 1;
@@ -966,6 +1060,22 @@ void AddSpecularKernelPart(const ReceiverPaths& paths, const SynthesisContext& c
             for (int i = 0; i < nBins - 1; ++i) total[i] += scale * bandMag[i] * spectrum[i];
             total[nBins - 1] += 0.5f * scale * bandMag[nBins - 1] * spectrum[nBins - 1];
         }
+        if (!usedQuad[b]) continue;
+        if (top) {
+            // |H_top| on the full grid: 1 - complementMag where that is defined, 1 above.
+            RealFft& full = ThreadRealFft(m);
+            spectrum.resize(full.BinCount());
+            full.Forward(quad[b].data(), spectrum.data());
+            const int cm = static_cast<int>(grid->complementMag.size());
+            for (int i = 1; i < full.BinCount() - 1; ++i) {
+                const float mag = i < cm ? 1.0f - grid->complementMag[i] : 1.0f;
+                total[i] += minusJ * (mag * quadratureGain(i)) * spectrum[i];
+            }
+            continue;
+        }
+        fft.Forward(quad[b].data(), spectrum.data());
+        const float qs = static_cast<float>(db.decimation);
+        for (int i = 1; i < nBins - 1; ++i) total[i] += minusJ * (qs * bandMag[i] * quadratureGain(i)) * spectrum[i];
     }
     thread_local std::vector<float> y;
     y.resize(m);

@@ -3,7 +3,8 @@
 // as synthesized mono impulse responses (WAV path: octave filters, noise analysis, Schroeder
 // curve). Both claim to compute ISO 3382-1 parameters of the same response, so their mean
 // difference over seats must stay below a quarter of a JND (ISO 3382-1:2009 Table A.1, as in
-// kJndTable); the per-seat spread is reported (it contains the synthesis' Poisson noise).
+// kJndTable); the per-seat spread is reported (it holds the synthesis' Poisson noise and
+// each seat's interference of its reflections).
 #include <gtest/gtest.h>
 
 #include <algorithm>
@@ -12,6 +13,8 @@
 #include <map>
 #include <string>
 #include <vector>
+
+#include <tbb/parallel_for.h>
 
 #include "hallwright/air.h"
 #include "hallwright/image_sources.h"
@@ -26,58 +29,35 @@
 namespace hallwright {
 namespace {
 
-/* Up to `perZone` seats of each zone, evenly spread over the zone's seat list. */
-std::vector<int> SeatSubset(const Scene& scene, int perZone) {
-    std::map<std::string, std::vector<int>> byZone;
-    for (int i = 0; i < static_cast<int>(scene.receivers.size()); ++i) byZone[scene.receivers[i].zone].push_back(i);
-    std::vector<int> out;
-    for (const auto& [zone, seats] : byZone) {
-        const int n = std::min<int>(perZone, static_cast<int>(seats.size()));
-        for (int k = 0; k < n; ++k) out.push_back(seats[(k * seats.size()) / n]);
-    }
-    std::sort(out.begin(), out.end());
-    return out;
-}
-
-/* Known, explained discrepancies above 0.25 JND (issue 7 is not met for these; they are
-   held below 1 JND so that they cannot grow unnoticed):
-   - 500 Hz C50/C80/D50/Ts: the synthesized IR adds the specular paths coherently (pressure),
-     the histogram adds energies. In the stalls the stage/floor reflection arrives 1.1-1.6 ms
-     after the direct sound, i.e. in antiphase at 500 Hz, so the WAV's early 500 Hz energy is
-     lower (synthesizing each path alone and summing energies agrees with the histogram to
-     0.01 dB; all paths together: -0.46 dB mean, +-1.3 dB per seat). A property of the
-     synthesis (engine/response), not of either parameter computation.
-   - 500 Hz T20: leakage of the 250 Hz band (T 1.60 s against 1.28 s at 500 Hz, Eyring)
-     through the crossovers of the synthesis bank and the IEC 61260-1 class 1 filter skirts:
-     the WAV's 500 Hz decay bends toward the longer 250 Hz decay below about -20 dB, as a
-     measurement of such a room would.
-   - 2 kHz EDT: the WAV path's EDT is 2-2.5 % shorter; the same offset appears with flat
-     spectra (no leakage) and with the reflections given to the tracer part (no coherent
-     specular sum), so its cause lies in the shape the synthesized late part gives the first
-     10 dB of the decay; not found. */
-const std::map<std::pair<std::string, int>, const char*> kOpen = {
-    {{"C50", 500}, "coherent specular sum in the synthesized IR"},
-    {{"C80", 500}, "coherent specular sum in the synthesized IR"},
-    {{"D50", 500}, "coherent specular sum in the synthesized IR"},
-    {{"Ts", 500}, "coherent specular sum in the synthesized IR"},
-    {{"T20", 500}, "250 Hz leakage into the 500 Hz analysis band"},
-    {{"EDT", 2000}, "not found (synthesized late part, first 10 dB)"},
-};
-
+/* What the two paths are held to, and why they agree (issue 7):
+   - The synthesized IR gives each reflection a pseudo-random phase (response.h,
+     coherentReflections): the data carry no phase, and an in-phase sum made the 500 Hz C50,
+     C80, D50 and Ts of every stalls seat follow the same interference with the stage-floor
+     reflection (1.1-1.6 ms after the direct sound, near antiphase at 500 Hz), a mean bias of
+     up to 0.57 JND. Random phases leave each seat's interference (the per-seat spread) but
+     no bias in the band energies.
+   - EDT is a nonlinear function of the early energy, so that per-seat spread still gives
+     it a small bias of its own (about +0.1 JND at 500 Hz over 3000 seat draws); the mean's
+     standard error with all 707 seats is about 0.05 JND, so the 0.25 JND limit stays clear of
+     chance.
+   - The histogram path reads its decay curves through the analysis filter's skirts, as the
+     WAV path's class 1 filter does (without that the 250 Hz band's slower decay lengthened
+     the WAV's 500 Hz T20 by 0.3 JND). */
 struct Stats {
     std::vector<double> jnd;  // per seat (WAV - histogram) / JND at the histogram value
     int missingHist = 0, missingWav = 0;
 };
 
-TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJndExceptListedPairs) {
+TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJndAtEverySeat) {
     Diagnostics loadDiag;
     auto room = LoadRoom(test::SourcePath("scenes/theatre/scene.toml"), loadDiag);
     ASSERT_TRUE(room) << loadDiag.ToString();
     const Scene& scene = room->scene;
-    const std::vector<int> seats = SeatSubset(scene, 15);
-    ASSERT_GE(seats.size(), 30u);
+    std::vector<int> seats(scene.receivers.size());
+    for (size_t i = 0; i < seats.size(); ++i) seats[i] = static_cast<int>(i);
+    ASSERT_GE(seats.size(), 500u);
 
-    // Stages as `simulate` wires them (cli/simulate.cpp), for source 0 and the chosen seats.
+    // Stages as `simulate` wires them (cli/simulate.cpp), for source 0 and every seat.
     Diagnostics diag;
     const auto paths =
         ComputeImageSources(scene, room->geometry, 0, seats, ImageSourceOptionsFrom(scene.settings), diag);
@@ -101,20 +81,25 @@ TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJndExceptListedPa
 
     const std::vector<int> bands = {3, 4, 5};  // 500, 1000, 2000 Hz
     const std::vector<std::string> params = {"EDT", "T20", "T30", "C50", "C80", "D50", "Ts", "G"};
-    std::map<std::pair<std::string, int>, Stats> stats;
-    for (size_t i = 0; i < seats.size(); ++i) {
+    // Both tables per seat, in parallel; compared in seat order below.
+    std::vector<ParameterTable> hist(seats.size()), measured(seats.size());
+    std::vector<std::string> errors(seats.size());
+    tbb::parallel_for(size_t(0), seats.size(), [&](size_t i) {
         const int r = seats[i];
         HistogramMetricsOptions ho;
         ho.bands = bands;
         ho.perBatchValues = false;
         ho.perBandMti = false;
         ho.sourceDirection = (scene.sources[0].position - scene.receivers[r].position).normalized();
-        const ParameterTable hist = ParametersFromHistogram(paths[i], traced.histograms[i], ho);
-
-        ctx.receiver = r;
+        hist[i] = ParametersFromHistogram(paths[i], traced.histograms[i], ho);
+        SynthesisContext c = ctx;
+        c.receiver = r;
         Diagnostics sd;
-        const ImpulseResponse ir = Synthesize(paths[i], traced.histograms[i], ctx, sd);
-        ASSERT_FALSE(sd.HasErrors()) << sd.ToString();
+        const ImpulseResponse ir = Synthesize(paths[i], traced.histograms[i], c, sd);
+        if (sd.HasErrors()) {
+            errors[i] = sd.ToString();
+            return;
+        }
         WavData wav;
         wav.sampleRate = ir.sampleRate;
         wav.channels = 1;
@@ -124,14 +109,17 @@ TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJndExceptListedPa
         wo.sti = false;
         wo.referenceEnergy = ir.referenceEnergy;
         Diagnostics wd;
-        const ParameterTable measured = ParametersFromWav(wav, wo, wd);
-        ASSERT_FALSE(wd.HasErrors()) << wd.ToString();
-
+        measured[i] = ParametersFromWav(wav, wo, wd);
+        if (wd.HasErrors()) errors[i] = wd.ToString();
+    });
+    std::map<std::pair<std::string, int>, Stats> stats;
+    for (size_t i = 0; i < seats.size(); ++i) {
+        ASSERT_TRUE(errors[i].empty()) << errors[i];
         for (int band : bands)
             for (const std::string& p : params) {
                 Stats& s = stats[{p, band}];
-                const ParameterValue* a = hist.Find(p, kNominalBandHz[band]);
-                const ParameterValue* b = measured.Find(p, kNominalBandHz[band]);
+                const ParameterValue* a = hist[i].Find(p, kNominalBandHz[band]);
+                const ParameterValue* b = measured[i].Find(p, kNominalBandHz[band]);
                 ASSERT_TRUE(a && b) << p;
                 if (!a->value) ++s.missingHist;
                 if (!b->value) ++s.missingWav;
@@ -161,13 +149,7 @@ TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJndExceptListedPa
             // Both paths must give a value wherever the other does (same response).
             EXPECT_EQ(s.missingHist, s.missingWav) << p << " at " << kNominalBandHz[band] << " Hz";
             ASSERT_GE(s.jnd.size(), seats.size() * 9 / 10) << p << " at " << kNominalBandHz[band] << " Hz";
-            const auto open = kOpen.find({p, kNominalBandHz[band]});
-            if (open == kOpen.end()) {
-                EXPECT_LE(std::fabs(mean), 0.25) << p << " at " << kNominalBandHz[band] << " Hz";
-            } else {
-                std::printf("      OPEN (bias above 0.25 JND, cause: %s)\n", open->second);
-                EXPECT_LE(std::fabs(mean), 1.0) << p << " at " << kNominalBandHz[band] << " Hz";
-            }
+            EXPECT_LE(std::fabs(mean), 0.25) << p << " at " << kNominalBandHz[band] << " Hz";
         }
 }
 

@@ -72,6 +72,14 @@ struct SynthesisContext {
     int source = 0, receiver = 0;
     double lengthS = 0;             // IR length; 0 = the histogram's length (binCount bins)
     double maxReflectionDensity = kDefaultMaxReflectionDensity;  // 1/s
+    /* Reflection phase of the specular paths of order >= 1. false (the default): each path
+       gets a pseudo-random constant phase phi (an all-pass rotation cos(phi) p + sin(phi)
+       Hilbert(p), the same in every band and channel, keyed by seed, source, receiver and
+       path index), because the absorption data carry no phase: the IR's band energies are
+       then unbiased against the energy sum the parameter table uses, instead of following one
+       interference pattern of an idealised point source and receiver. true: every path adds
+       in phase as a real, positive pressure gain (interference as at one exact point). */
+    bool coherentReflections = false;
 };
 
 /* A synthesized impulse response; samples[frame * channels + channel]. */
