@@ -8,6 +8,7 @@
 #include <gtest/gtest.h>
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <cstdio>
 #include <map>
@@ -151,6 +152,116 @@ TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJndAtEverySeat) {
             ASSERT_GE(s.jnd.size(), seats.size() * 9 / 10) << p << " at " << kNominalBandHz[band] << " Hz";
             EXPECT_LE(std::fabs(mean), 0.25) << p << " at " << kNominalBandHz[band] << " Hz";
         }
+}
+
+}  // namespace
+}  // namespace hallwright
+
+namespace hallwright {
+namespace {
+
+// LF (ISO 3382-1 A.2.2) from the AmbiX files against the histogram path's LF, 120 seats of the
+// demo theatre (40 per zone), facing as in the scene. The lateral figure-of-eight of the WAV
+// path is -sin(phi) X + cos(phi) Y with phi the source azimuth in the head frame (as the
+// sidecar gives it to `analyze`), the histogram path's axis is horizontal and perpendicular to
+// the source direction: the same axis. Measured mean bias: -0.003, -0.012, -0.006 at 500,
+// 1000, 2000 Hz (JND 0.05, ISO 3382-1 Table A.1), per-seat rms 0.04-0.05. Held to half a JND,
+// not a quarter: the late part draws each Dirac's direction uniformly within its cell of the
+// tracer's directional record (8 azimuth sectors x 8 equal-area elevation bands), which
+// spreads strongly lateral energy over a 45 degree sector and lowers the late part's lateral
+// energy by about a tenth (direct sound + late part alone: 0.153 against 0.169).
+TEST(HistogramVsAmbixValidation, DemoTheatreLfMeanBiasWithinHalfJnd) {
+    Diagnostics loadDiag;
+    auto room = LoadRoom(test::SourcePath("scenes/theatre/scene.toml"), loadDiag);
+    ASSERT_TRUE(room) << loadDiag.ToString();
+    const Scene& scene = room->scene;
+    std::map<std::string, std::vector<int>> byZone;
+    for (int i = 0; i < static_cast<int>(scene.receivers.size()); ++i) byZone[scene.receivers[i].zone].push_back(i);
+    std::vector<int> seats;
+    for (const auto& [zone, list] : byZone) {
+        const int n = std::min<int>(40, static_cast<int>(list.size()));
+        for (int k = 0; k < n; ++k) seats.push_back(list[(k * list.size()) / n]);
+    }
+    std::sort(seats.begin(), seats.end());
+    ASSERT_GE(seats.size(), 100u);
+
+    Diagnostics diag;
+    const auto paths =
+        ComputeImageSources(scene, room->geometry, 0, seats, ImageSourceOptionsFrom(scene.settings), diag);
+    TracerOptions to;
+    to.rays = 16000;
+    to.seed = scene.settings.seed;
+    to.imageOrder = scene.settings.imageOrder;
+    to.durationS = scene.settings.durationS;
+    to.receivers = seats;
+    const TracerResult traced = TraceSource(*room, 0, to, diag);
+    ASSERT_FALSE(diag.HasErrors()) << diag.ToString();
+
+    SynthesisContext ctx;
+    ctx.sampleRate = scene.settings.sampleRate;
+    ctx.roomVolumeM3 = room->geometry.Volume();
+    ctx.speedOfSound = SpeedOfSound(scene.air.temperatureC);
+    ctx.seed = scene.settings.seed;
+    ctx.source = 0;
+    const std::vector<int> bands = {3, 4, 5};
+    std::vector<std::array<double, kBandCount>> hist(seats.size()), wav(seats.size());
+    std::vector<std::string> errors(seats.size());
+    tbb::parallel_for(size_t(0), seats.size(), [&](size_t i) {
+        const int r = seats[i];
+        const Vec3 source = (scene.sources[0].position - scene.receivers[r].position).normalized();
+        HistogramMetricsOptions ho;
+        ho.bands = bands;
+        ho.perBatchValues = false;
+        ho.perBandMti = false;
+        ho.sourceDirection = source;
+        const ParameterTable h = ParametersFromHistogram(paths[i], traced.histograms[i], ho);
+        SynthesisContext c = ctx;
+        c.receiver = r;
+        const Vec3 facing = scene.receivers[r].facing;
+        Diagnostics sd;
+        const ImpulseResponse ir = SynthesizeAmbix(paths[i], traced.histograms[i], c, facing, sd);
+        if (sd.HasErrors()) {
+            errors[i] = sd.ToString();
+            return;
+        }
+        WavData w;
+        w.sampleRate = ir.sampleRate;
+        w.channels = ir.channels;
+        w.samples = ir.samples;
+        WavMetricsOptions wo;
+        wo.bands = bands;
+        wo.sti = false;
+        wo.layout = ChannelLayout::kAmbix;
+        // Source azimuth in the head frame (internal y up), counter-clockwise from the front.
+        const Vec3 up(0, 1, 0);
+        const Vec3 f = (facing - facing.dot(up) * up).normalized(), d = (source - source.dot(up) * up).normalized();
+        wo.sourceAzimuthDeg = std::atan2(d.dot(up.cross(f)), d.dot(f)) * 180.0 / M_PI;
+        Diagnostics wd;
+        const ParameterTable m = ParametersFromWav(w, wo, wd);
+        for (int b : bands) {
+            const ParameterValue *x = h.Find("LF", kNominalBandHz[b]), *y = m.Find("LF", kNominalBandHz[b]);
+            if (!x || !y || !x->value || !y->value) {
+                errors[i] = "LF missing at " + std::to_string(kNominalBandHz[b]) + " Hz: " + (x ? x->note : "") +
+                            " / " + (y ? y->note : "");
+                return;
+            }
+            hist[i][b] = *x->value;
+            wav[i][b] = *y->value;
+        }
+    });
+    for (const std::string& e : errors) ASSERT_TRUE(e.empty()) << e;
+    const double jnd = *JndAt("LF", 0.2);
+    for (int b : bands) {
+        double meanH = 0, meanW = 0, sq = 0;
+        for (size_t i = 0; i < seats.size(); ++i) {
+            meanH += hist[i][b] / seats.size();
+            meanW += wav[i][b] / seats.size();
+            sq += std::pow(wav[i][b] - hist[i][b], 2) / seats.size();
+        }
+        std::printf("LF %4d Hz: histogram %.3f, AmbiX %.3f, bias %+.2f JND, per-seat rms %.2f JND (%zu seats)\n",
+                    kNominalBandHz[b], meanH, meanW, (meanW - meanH) / jnd, std::sqrt(sq) / jnd, seats.size());
+        EXPECT_LE(std::fabs(meanW - meanH), 0.5 * jnd) << kNominalBandHz[b] << " Hz";
+    }
 }
 
 }  // namespace
