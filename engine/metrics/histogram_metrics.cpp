@@ -5,6 +5,9 @@
 #include <cstdio>
 #include <limits>
 #include <utility>
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
 
 #include "hallwright/diagnostics.h"
 #include "hallwright/metrics.h"
@@ -25,12 +28,21 @@ double FindTimeZero(const ReceiverPaths& paths, const ReceiverHistogram& hist, b
     double peak = 0;
     for (const SpecularPath& p : paths.paths) peak = std::max(peak, p.energy.sum());
     std::vector<double> broadband(hist.binCount, 0.0);
-    for (int k = 0; k < hist.binCount; ++k) {
-        double s = 0;
-        for (int b = 0; b < kBatchCount; ++b)
-            for (int band = 0; band < kBandCount; ++band) s += hist.Energy(b, k, band);
-        broadband[k] = s / kBatchCount;
-        peak = std::max(peak, broadband[k]);
+    // Each bin's sum runs over batches and bands in that order; kBlock bins are summed side
+    // by side (independent sums, so the additions overlap).
+    constexpr int kBlock = 8;
+    for (int k0 = 0; k0 < hist.binCount; k0 += kBlock) {
+        const int m = std::min(kBlock, hist.binCount - k0);
+        double s[kBlock] = {};
+        for (int b = 0; b < kBatchCount; ++b) {
+            const float* row = &hist.energy[(static_cast<size_t>(b) * hist.binCount + k0) * kBandCount];
+            for (int band = 0; band < kBandCount; ++band)
+                for (int j = 0; j < m; ++j) s[j] += static_cast<double>(row[j * kBandCount + band]);
+        }
+        for (int j = 0; j < m; ++j) {
+            broadband[k0 + j] = s[j] / kBatchCount;
+            peak = std::max(peak, broadband[k0 + j]);
+        }
     }
     double t0 = std::numeric_limits<double>::infinity();
     fromBins = false;
@@ -128,6 +140,37 @@ double ThroughSkirts(int c, const double* e, const double* root) {
         if (b + 1 < kBandCount) s += 2.0 * w[b][b + 1] * root[b] * root[b + 1];
     }
     return s;
+}
+
+/* out[i] = sqrt(x[i]) (correctly rounded either way; two at a time where SSE2 has them). */
+void SquareRoots(const double* x, size_t n, double* out) {
+    size_t i = 0;
+#if defined(__SSE2__)
+    for (; i + 2 <= n; i += 2) _mm_storeu_pd(out + i, _mm_sqrt_pd(_mm_loadu_pd(x + i)));
+#endif
+    for (; i < n; ++i) out[i] = std::sqrt(x[i]);
+}
+
+/* ThroughSkirts of band c for every bin of a [bin][band] histogram (out[k] for bin k). */
+void BinsThroughSkirts(int c, const double* e, const double* root, int binCount, double* out) {
+    const auto& w = Leakage()[c];
+    const int lo = std::max(0, c - 2), hi = std::min(kBandCount - 1, c + 2);
+    // The table's terms hoisted out of the bin loop (the same products, in the same order).
+    double diag[kBandCount], cross[kBandCount];
+    for (int b = lo; b <= hi; ++b) {
+        diag[b] = w[b][b];
+        cross[b] = b + 1 < kBandCount ? 2.0 * w[b][b + 1] : 0.0;
+    }
+    for (int k = 0; k < binCount; ++k) {
+        const double* ek = e + static_cast<size_t>(k) * kBandCount;
+        const double* rk = root + static_cast<size_t>(k) * kBandCount;
+        double s = 0;
+        for (int b = lo; b <= hi; ++b) {
+            s += diag[b] * ek[b];
+            if (b + 1 < kBandCount) s += cross[b] * rk[b] * rk[b + 1];
+        }
+        out[k] = s;
+    }
 }
 
 /* The first part of the kernel is kept at a fine time step (as impulses) instead of in the
@@ -300,24 +343,26 @@ ParameterTable ParametersFromHistogram(const ReceiverPaths& paths, const Receive
         const bool skip = !options.perBatchValues && r >= 1 && r <= kBatchCount;
         if (skip) continue;
         // This replicate's mean histogram, [bin][band], and its square roots.
-        std::fill(plain.begin(), plain.end(), 0.0);
-        for (int b = 0; b < kBatchCount; ++b) {
-            const double w = weights(r, b);
-            if (w == 0) continue;
-            const float* batch = &hist.energy[static_cast<size_t>(b) * binCount * kBandCount];
-            for (size_t i = 0; i < plain.size(); ++i) plain[i] += w * static_cast<double>(batch[i]);
+        // Summed batch by batch, a block of entries at a time (it stays in the L1 cache).
+        constexpr size_t kBlock = 512;
+        for (size_t i0 = 0; i0 < plain.size(); i0 += kBlock) {
+            const size_t i1 = std::min(plain.size(), i0 + kBlock);
+            std::fill(plain.begin() + i0, plain.begin() + i1, 0.0);
+            for (int b = 0; b < kBatchCount; ++b) {
+                const double w = weights(r, b);
+                if (w == 0) continue;
+                const float* batch = &hist.energy[static_cast<size_t>(b) * binCount * kBandCount];
+                for (size_t i = i0; i < i1; ++i) plain[i] += w * static_cast<double>(batch[i]);
+            }
+            SquareRoots(plain.data() + i0, i1 - i0, root.data() + i0);
         }
-        for (size_t i = 0; i < plain.size(); ++i) root[i] = std::sqrt(plain[i]);
         for (int band = 0; band < kBandCount; ++band) {
             if (!needed[band]) continue;
             const SpecularBand& sb = specular[band];
             omni.bins.resize(binCount);
             exact.bins.resize(binCount);
-            for (int k = 0; k < binCount; ++k) {
-                const size_t i = static_cast<size_t>(k) * kBandCount;
-                exact.bins[k] = plain[i + band];
-                omni.bins[k] = ThroughSkirts(band, &plain[i], &root[i]);
-            }
+            for (int k = 0; k < binCount; ++k) exact.bins[k] = plain[static_cast<size_t>(k) * kBandCount + band];
+            BinsThroughSkirts(band, plain.data(), root.data(), binCount, omni.bins.data());
             int last = binCount;  // end of the tracer's energy (before the specular part)
             while (last > 0 && exact.bins[last - 1] == 0) --last;
             for (const auto& [k, v] : sb.omniBinAdds) omni.bins[k] += v;
