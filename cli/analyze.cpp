@@ -186,6 +186,11 @@ const bool kRegistered = hwcli::AddCommand(
             const bool binauralFile = sidecar && sidecar->layout == hw::ChannelLayout::kBinaural;
             if (sidecar && sidecar->referenceEnergy && !binauralFile) opt.referenceEnergy = sidecar->referenceEnergy;
             if (a->haveReference) opt.referenceEnergy = a->referenceEnergy;
+            if (a->haveReference && opt.layout == hw::ChannelLayout::kBinaural) {
+                std::fprintf(stderr, "hallwright analyze: error: --reference-energy: a binaural analysis gives IACC "
+                                     "only, no G; to force G from the left ear, add --channels mono\n");
+                return hwcli::kExitBadCommandLine;
+            }
 
             hw::Diagnostics analysis;
             hw::ParameterTable table = hw::ParametersFromWav(*wav, opt, analysis);
@@ -204,10 +209,18 @@ const bool kRegistered = hwcli::AddCommand(
             std::printf("%s: %d Hz, %d channel(s), %.3f s, layout %s, time zero %.2f ms%s\n", a->file.c_str(),
                         wav->sampleRate, wav->channels, double(wav->FrameCount()) / wav->sampleRate, layoutName,
                         table.timeZeroS * 1000, sidecar ? ", sidecar read" : "");
-            if (!opt.referenceEnergy)
-                std::printf(binauralFile ? "G not computed: a binaural file's level follows its HRTF set "
-                                           "(give --reference-energy to force it)\n"
-                                         : "G not computed: no sidecar and no --reference-energy\n");
+            if (!opt.referenceEnergy) {
+                const char* why =
+                    opt.layout == hw::ChannelLayout::kBinaural
+                        ? "a binaural analysis gives IACC only (a binaural file's level follows its HRTF set)"
+                    : binauralFile ? "a binaural file's level follows its HRTF set (give --reference-energy to force it)"
+                    : sidecar      ? "the sidecar has no reference energy and no --reference-energy was given"
+                                   : "no sidecar and no --reference-energy";
+                std::printf("G not computed: %s\n", why);
+            } else if (binauralFile) {
+                table.notes.push_back("G of the left ear with the given --reference-energy: its level follows the "
+                                      "HRTF set, not an omnidirectional reference");
+            }
             std::printf("\n");
             PrintTable(table, opt.bands);
 

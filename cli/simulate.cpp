@@ -43,6 +43,19 @@ extern "C" void OnInterrupt(int) { gInterrupted.store(true); }
 
 using Options = hwcli::SimulateOptions;
 
+/* Appends `from` to `to`, leaving out warnings and notes whose text `to` already holds: a
+   check the tracer repeats for every source (e.g. receiver radii) then shows once per run. */
+void AppendOnce(hallwright::Diagnostics& to, const hallwright::Diagnostics& from) {
+    for (const auto& d : from.Items()) {
+        const std::string text = hallwright::FormatDiagnostic(d);
+        const bool repeated = d.severity != hallwright::Severity::kError &&
+                              std::any_of(to.Items().begin(), to.Items().end(), [&](const hallwright::Diagnostic& e) {
+                                  return hallwright::FormatDiagnostic(e) == text;
+                              });
+        if (!repeated) to.Add(d.severity, d.at, d.message);
+    }
+}
+
 /* Progress lines on stderr when it is a terminal (and not --quiet). */
 class Progress {
   public:
@@ -291,7 +304,7 @@ int Run(const Options& opt) {
                       scene.settings.rays, [&] { traced = hallwright::TraceSource(*room, s, traceOptions, runDiag); });
         traceOptions.raysDone = nullptr;
         traceS += Seconds(tStage);
-        diag.Append(runDiag);
+        AppendOnce(diag, runDiag);
         if (runDiag.HasErrors()) {
             record.Fail(runDiag);
             break;

@@ -167,6 +167,7 @@ hallwright::IrFileInfo FileInfo(const hallwright::Scene& scene, int source, int 
     info.zone = seat.zone;
     info.facing = scene.DirectionToModel(seat.facing);
     info.sourceDirection = scene.DirectionToModel((src.position - seat.position).normalized());
+    info.up = scene.DirectionToModel(hallwright::Vec3::UnitY());
     info.frame = "model";
     info.seed = seed;
     return info;

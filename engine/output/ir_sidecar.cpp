@@ -67,12 +67,20 @@ std::optional<IrSidecar> ParseIrSidecar(const std::string& text, const std::stri
     };
     name("source", s.sourceName, nullptr);
     name("seat", s.seatName, &s.zone);
-    // Source azimuth in the listener's horizontal plane.
+    // Source azimuth in the listener's horizontal plane, about "up"; sidecars written before
+    // that key existed (and hand-made ones) leave the up axis to a guess below.
+    std::optional<Vec3> up;
+    if (j.contains("up")) {
+        up = ReadVec(j["up"]);
+        if (!up || !(up->norm() > 0)) {
+            diag.Error(at, "\"up\" must be a non-zero vector [x, y, z] (or leave the key out)");
+            return std::nullopt;
+        }
+    }
     std::optional<Vec3> dir = j.contains("source_direction") ? ReadVec(j["source_direction"]) : std::nullopt;
     std::optional<Vec3> facing;
     if (j.contains("seat") && j["seat"].is_object() && j["seat"].contains("facing")) facing = ReadVec(j["seat"]["facing"]);
     if (dir && facing && dir->norm() > 0 && facing->norm() > 0) {
-        std::optional<Vec3> up = j.contains("up") ? ReadVec(j["up"]) : std::nullopt;
         if (!up) {
             const double y = std::fabs(dir->normalized().y()) + std::fabs(facing->normalized().y());
             const double z = std::fabs(dir->normalized().z()) + std::fabs(facing->normalized().z());

@@ -12,7 +12,10 @@ namespace hallwright {
 
 namespace {
 
-nlohmann::ordered_json VecJson(const Vec3& v) { return nlohmann::ordered_json::array({v.x(), v.y(), v.z()}); }
+// "+ 0.0" turns the -0 of a rotated axis (scene_frame.cpp) into 0 in the text.
+nlohmann::ordered_json VecJson(const Vec3& v) {
+    return nlohmann::ordered_json::array({v.x() + 0.0, v.y() + 0.0, v.z() + 0.0});
+}
 
 }  // namespace
 
@@ -50,8 +53,14 @@ std::string ImpulseResponseSidecarJson(const ImpulseResponse& ir, const IrFileIn
     j["sample_rate"] = ir.sampleRate;
     j["sample_format"] = format == WavFormat::kFloat32 ? "float32" : "pcm24";
     j["frames"] = ir.FrameCount();
-    j["reference_energy"] = ir.referenceEnergy;
-    j["reference_energy_definition"] = GReferenceDefinition();
+    // G needs an omnidirectional response; a binaural file's level follows its HRTF set.
+    if (ir.layout == "binaural-lr") {
+        j["reference_energy_note"] = "none: G is not defined for a binaural file, whose level follows "
+                                     "the normalisation of its HRTF set";
+    } else {
+        j["reference_energy"] = ir.referenceEnergy;
+        j["reference_energy_definition"] = GReferenceDefinition();
+    }
     nlohmann::ordered_json eps = nlohmann::ordered_json::array(), hz = nlohmann::ordered_json::array();
     for (int b = 0; b < kBandCount; ++b) {
         eps.push_back(ir.bandEnergyOfUnitDirac[b]);
@@ -69,6 +78,7 @@ std::string ImpulseResponseSidecarJson(const ImpulseResponse& ir, const IrFileIn
                  {"zone", info.zone},
                  {"facing", VecJson(info.facing)}};
     j["source_direction"] = VecJson(info.sourceDirection);
+    j["up"] = VecJson(info.up);
     return j.dump(2) + "\n";
 }
 

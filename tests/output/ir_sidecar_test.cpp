@@ -42,3 +42,42 @@ TEST(IrSidecar, AbsentIsNotAnError) {
     EXPECT_FALSE(hw::ReadIrSidecar(hw::test::TempDir("sidecar_absent") + "/none.wav", diag));
     EXPECT_FALSE(diag.HasErrors());
 }
+
+// A z-up model (scene_frame.cpp): a listener facing +x with the source ahead and 2 m above
+// (direction (5, 0, 2)/sqrt(29)). Projected on the plane normal to the true up axis z the
+// source is straight ahead, azimuth 0. Without "up" the reader guesses the axis least present
+// in both vectors, y here (0 against 0.37), and says so in the note.
+TEST(IrSidecar, UpKeyGivesTheAzimuthAboutTheModelVertical) {
+    const std::string body = R"("channel_layout":"ambix-acn-sn3d",
+        "seat":{"name":"ahead","facing":[1,0,0]},"source_direction":[0.928476690885259,0,0.371390676354104])";
+    hw::Diagnostics diag;
+    auto withUp = hw::ParseIrSidecar("{" + body + R"(,"up":[0,0,1]})", "up.wav.json", diag);
+    ASSERT_TRUE(withUp) << diag.ToString();
+    ASSERT_TRUE(withUp->sourceAzimuthDeg);
+    EXPECT_NEAR(*withUp->sourceAzimuthDeg, 0.0, 1e-9);
+    EXPECT_TRUE(withUp->azimuthNote.empty()) << withUp->azimuthNote;
+
+    // The same vectors, up axis not given: the guess and its note.
+    auto guessed = hw::ParseIrSidecar("{" + body + "}", "old.wav.json", diag);
+    ASSERT_TRUE(guessed) << diag.ToString();
+    ASSERT_TRUE(guessed->sourceAzimuthDeg);
+    EXPECT_NE(guessed->azimuthNote.find("no \"up\" key"), std::string::npos) << guessed->azimuthNote;
+
+    // A source on the listener's left in that frame: left = up x facing = z x x = +y, so
+    // direction +y (raised) is azimuth +90 deg (AmbiX, counter-clockwise; REFERENCES §7.1).
+    auto left = hw::ParseIrSidecar(R"({"seat":{"facing":[1,0,0]},"source_direction":[0,0.8,0.6],"up":[0,0,1]})",
+                                   "left.wav.json", diag);
+    ASSERT_TRUE(left && left->sourceAzimuthDeg) << diag.ToString();
+    EXPECT_NEAR(*left->sourceAzimuthDeg, 90.0, 1e-9);
+    EXPECT_FALSE(diag.HasErrors());
+}
+
+TEST(IrSidecar, MalformedUpIsAnErrorNamingTheFile) {
+    for (const char* up : {"[0,0,0]", "[0,1]", "\"z\""}) {
+        hw::Diagnostics diag;
+        const std::string text = std::string(R"({"seat":{"facing":[1,0,0]},"source_direction":[0,1,0],"up":)") + up + "}";
+        EXPECT_FALSE(hw::ParseIrSidecar(text, "bad-up.wav.json", diag)) << up;
+        EXPECT_NE(diag.ToString().find("bad-up.wav.json"), std::string::npos) << diag.ToString();
+        EXPECT_NE(diag.ToString().find("\"up\""), std::string::npos) << diag.ToString();
+    }
+}

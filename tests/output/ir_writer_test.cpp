@@ -1,11 +1,13 @@
 // Tests of the impulse-response file writer (engine/output/ir_writer.cpp).
 #include <gtest/gtest.h>
 
+#include <cmath>
 #include <filesystem>
 #include <fstream>
 
 #include <nlohmann/json.hpp>
 
+#include "hallwright/ir_sidecar.h"
 #include "hallwright/ir_writer.h"
 #include "test_support.h"
 
@@ -69,6 +71,7 @@ TEST(IrWriter, WritesMonoWavAndSidecarUnderIrMono) {
     EXPECT_EQ(j["seat"]["zone"], "stalls");
     EXPECT_EQ(j["seat"]["facing"][2], -1.0);
     EXPECT_EQ(j["source_direction"][0], -0.6);
+    EXPECT_EQ(j["up"], nlohmann::json::array({0.0, 1.0, 0.0}));  // IrFileInfo's default: internal y up
     EXPECT_EQ(j["synthesis_band_energy_of_unit_dirac"].size(), 8u);
     EXPECT_NEAR(j["direct_delay_s"].get<double>(), 0.03, 1e-12);
 
@@ -109,4 +112,30 @@ TEST(IrWriter, LayoutsHaveTheirOwnDirectories) {
     EXPECT_EQ(hw::ImpulseResponseRelativePath("ambix-acn-sn3d", "s", "r"), "ir/ambix/s__r.wav");
     EXPECT_EQ(hw::ImpulseResponseRelativePath("binaural-lr", "s", "r"), "ir/binaural/s__r.wav");
     EXPECT_EQ(hw::SafeFileComponent(".."), "_..");
+}
+
+// A binaural file's level follows its HRTF set (response.h), so its sidecar carries no G
+// reference, only a note saying why; the up vector is written as given.
+TEST(IrWriter, BinauralSidecarHasNoReferenceEnergy) {
+    hw::ImpulseResponse ir = SmallIr();
+    hw::IrFileInfo info = Info();
+    info.up = hw::Vec3(0, -0.0, 1);  // z-up model: DirectionToModel(0, 1, 0) = (0, -0, 1)
+    const nlohmann::json mono = nlohmann::json::parse(hw::ImpulseResponseSidecarJson(ir, info, hw::WavFormat::kFloat32));
+    EXPECT_TRUE(mono.contains("reference_energy"));
+    EXPECT_FALSE(mono.contains("reference_energy_note"));
+    EXPECT_EQ(mono["up"], nlohmann::json::array({0.0, 0.0, 1.0}));
+    EXPECT_FALSE(std::signbit(mono["up"][1].get<double>()));  // written as 0.0, not -0.0
+
+    ir.layout = "binaural-lr";
+    ir.channels = 2;
+    ir.samples.resize(2 * ir.samples.size());
+    const nlohmann::json bin = nlohmann::json::parse(hw::ImpulseResponseSidecarJson(ir, info, hw::WavFormat::kFloat32));
+    EXPECT_FALSE(bin.contains("reference_energy"));
+    EXPECT_FALSE(bin.contains("reference_energy_definition"));
+    EXPECT_NE(bin["reference_energy_note"].get<std::string>().find("HRTF"), std::string::npos);
+    hw::Diagnostics diag;
+    auto read = hw::ParseIrSidecar(bin.dump(), "b.wav.json", diag);
+    ASSERT_TRUE(read) << diag.ToString();
+    EXPECT_FALSE(read->referenceEnergy);
+    EXPECT_EQ(*read->layout, hw::ChannelLayout::kBinaural);
 }

@@ -17,7 +17,9 @@ struct IrSidecar {
     std::string sourceName, seatName, zone; // "source".name, "seat".name, "seat".zone
     /* Azimuth of the source seen from the seat, counter-clockwise from the facing direction,
        from "source_direction" and "seat".facing projected on the horizontal plane; the up
-       axis is "up" when given, else the model axis (y or z) least present in both vectors. */
+       axis is "up" when given (every sidecar of `simulate` has it), else the model axis (y or
+       z) least present in both vectors, with azimuthNote saying so. A malformed "up" is an
+       error. */
     std::optional<double> sourceAzimuthDeg;
     std::string azimuthNote;
 };

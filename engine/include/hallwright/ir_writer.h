@@ -8,13 +8,15 @@
 //   "channel_layout": "mono" | "ambix-acn-sn3d" | "binaural-lr",  "channels": int,
 //   "sample_rate": Hz, "sample_format": "float32" | "pcm24", "frames": int,
 //   "reference_energy": number (response.h: sum_n p(n)^2 of the 10 m free-field response),
-//   "reference_energy_definition": text,
+//   "reference_energy_definition": text  (both absent in binaural sidecars: G is not defined
+//   for them, their level follows the HRTF set; "reference_energy_note" says so instead),
 //   "synthesis_band_energy_of_unit_dirac": [8 numbers, 63 Hz .. 8 kHz],  "bands_hz": [8 ints],
 //   "time_zero": text (sample 0 = emission at the source),  "direct_delay_s": number,
 //   "seed": int,  "frame": "model" (positions in the scene's units and axes) or "internal",
 //   "source": {"name": str, "position": [x, y, z]},
 //   "seat": {"name": str, "position": [x, y, z], "zone": str, "facing": [x, y, z]},
-//   "source_direction": [x, y, z]  (unit vector from the seat toward the source)
+//   "source_direction": [x, y, z]  (unit vector from the seat toward the source),
+//   "up": [x, y, z]  (unit vector of the vertical, in the same frame as the vectors above)
 #include <cstdint>
 #include <optional>
 #include <string>
@@ -35,6 +37,7 @@ struct IrFileInfo {
     std::string zone;
     Vec3 facing = Vec3::UnitX();           // the listener's look direction (unit)
     Vec3 sourceDirection = Vec3::UnitX();  // from the seat toward the source (unit)
+    Vec3 up = Vec3::UnitY();               // the vertical in `frame` (internal frame: +y)
     std::string frame = "model";           // frame of the positions and directions above
     uint64_t seed = 1;
 };
