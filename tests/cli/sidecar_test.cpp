@@ -8,6 +8,8 @@
 #include <string>
 #include <vector>
 
+#include <unistd.h>
+
 #include <gtest/gtest.h>
 #include <nlohmann/json.hpp>
 
@@ -55,7 +57,8 @@ size_t Count(const std::string& text, const std::string& what) {
    and binaural files. */
 const fs::path& ZUpRun() {
     static const fs::path out = [] {
-        const std::string dir = test::TempDir("sidecar_cli/zup");
+        // Two tests share this run; ctest may run them at once in two processes: one folder each.
+        const std::string dir = test::TempDir("sidecar_cli/zup-" + std::to_string(getpid()));
         test::WriteFile(dir, "box.obj", test::BoxObj(10, 4, 10, 1.0, /*zUp=*/true, "curtains"));
         test::WriteFile(dir, "scene.toml",
                         "title = \"z-up sidecars\"\n[model]\nmesh = \"box.obj\"\nup = \"z\"\n"
