@@ -769,18 +769,36 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
         // smoothed energies barely fluctuate, so sqrt(expected / achieved) there removes that
         // drift without a bias of its own and varies far too slowly to touch the band limits.
         {
+            // On blocks of lb grid points (16 per box width), interpolated between block
+            // centres as above: the window is far longer than a block.
             const int longFull = static_cast<int>(std::max(kMinLongCorrectionWindowS,
                                                            kLongCorrectionPeriods / bandwidth) * fs / 2);
             const int longW = std::max(3, static_cast<int>(std::lround(static_cast<double>(longFull) / r)));
-            ws.tmp.resize(mOut);
-            for (int n = 0; n < mOut; ++n) ws.tmp[n] = gain[n] * gain[n] * ws.actual[n];
-            BoxSmooth(ws.tmp, longW, ws.actualS);
-            BoxSmooth(ws.actualS, longW, ws.tmp);
-            BoxSmooth(ws.target, longW, ws.actualS);
-            BoxSmooth(ws.actualS, longW, ws.targetS);
-            for (int n = 0; n < mOut; ++n)
-                if (ws.tmp[n] > 1e-300 && ws.targetS[n] > 1e-300)
-                    gain[n] *= std::clamp(std::sqrt(ws.targetS[n] / ws.tmp[n]), 0.5, 2.0);
+            const int lb = std::max(1, longW / 16);
+            const int nb = (mOut + lb - 1) / lb;
+            const int wb = std::max(3, static_cast<int>(std::lround(static_cast<double>(longW) / lb)));
+            ws.targetB.assign(nb, 0.0);
+            ws.actualB.assign(nb, 0.0);
+            for (int n = 0; n < mOut; ++n) {
+                ws.targetB[n / lb] += ws.target[n];
+                ws.actualB[n / lb] += gain[n] * gain[n] * ws.actual[n];
+            }
+            BoxSmooth(ws.targetB, wb, ws.tmp);
+            BoxSmooth(ws.tmp, wb, ws.targetS);
+            BoxSmooth(ws.actualB, wb, ws.tmp);
+            BoxSmooth(ws.tmp, wb, ws.actualS);
+            for (int k = 0; k < nb; ++k)
+                ws.tmp[k] = (ws.actualS[k] > 1e-300 && ws.targetS[k] > 1e-300)
+                                ? std::clamp(std::sqrt(ws.targetS[k] / ws.actualS[k]), 0.5, 2.0)
+                                : 1.0;
+            const double centre = 0.5 * (lb - 1);
+            for (int n = 0; n < mOut; ++n) {
+                const double pos = (n - centre) / lb;
+                const int k0 = static_cast<int>(std::floor(pos));
+                const double f = pos - k0;
+                const double g0 = ws.tmp[std::clamp(k0, 0, nb - 1)], g1 = ws.tmp[std::clamp(k0 + 1, 0, nb - 1)];
+                gain[n] *= g0 + f * (g1 - g0);
+            }
         }
         double achieved = 0;
         for (int n = 0; n < mOut; ++n) achieved += gain[n] * gain[n] * ws.actual[n];
