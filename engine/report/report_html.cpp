@@ -727,6 +727,10 @@ std::string ListeningSection(const ReportInput& in) {
          " dB, the loudest at its stated peak), so the level differences between seats are the predicted ones; the "
          "absolute level is not the hall's. <b>Start playback quietly.</b> The files sit beside this page; open "
          "the page from the run's folder for the players to find them.</p>";
+    s += "<p class=\"note\">Each reflection in these responses has an arbitrary phase (absorption data carry none), "
+         "so a seat's file is one plausible version of the prediction: its colouration by early reflections is "
+         "typical, not exact, and its parameters scatter around the tables' values (about one JND at a seat, none "
+         "on average).</p>";
     s += "<div class=\"tablewrap\"><table id=\"listening-table\"><tr><th class=\"l\">Source</th><th class=\"l\">Zone</th>"
          "<th class=\"l\">Seat</th><th>Peak</th><th class=\"l\">Listen</th></tr>";
     for (const auto& l : in.listening)
