@@ -349,6 +349,7 @@ int Run(const Options& opt) {
             ctx.speedOfSound = c;
             ctx.seed = scene.settings.seed;
             ctx.source = s;
+            ctx.coherentReflections = scene.output.reflectionsInPhase;
             const auto format = opt.wavFormat == "pcm24" ? hallwright::WavFormat::kPcm24 : hallwright::WavFormat::kFloat32;
             std::atomic<int64_t> seatsDone{0};
             progress.Counted(label + ": impulse responses for " + std::to_string(scene.receivers.size()) + " seats",

@@ -106,6 +106,7 @@ void OutputWriter::WriteRunJson(const SimulateOptions& options, const RunRecord&
                      {"reported_bands", reported},
                      {"batches", hallwright::kBatchCount},
                      {"exhaustive_images", options.exhaustiveImages},
+                     {"reflection_phase", scene_.output.reflectionsInPhase ? "in_phase" : "random"},
                      {"air", {{"temperature_c", scene_.air.temperatureC},
                               {"humidity_pct", scene_.air.humidityPct},
                               {"pressure_kpa", scene_.air.pressureKPa}}}};

@@ -1,6 +1,8 @@
 // Shared helpers for the test suite (paths to fixtures and scenes).
 #include "test_support.h"
 
+#include <iterator>
+
 namespace hallwright::test {
 
 std::string SourcePath(const std::string& relative) { return std::string(HW_SOURCE_DIR) + "/" + relative; }
@@ -10,6 +12,11 @@ std::string TempDir(const std::string& name) {
     std::filesystem::remove_all(p);
     std::filesystem::create_directories(p);
     return p.string();
+}
+
+std::string ReadFile(const std::string& path) {
+    std::ifstream in(path, std::ios::binary);
+    return std::string(std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>());
 }
 
 std::string WriteFile(const std::string& dir, const std::string& name, const std::string& text) {

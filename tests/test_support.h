@@ -10,6 +10,8 @@ std::string SourcePath(const std::string& relative);
 std::string TempDir(const std::string& name);
 /* Writes text to dir/name and returns the full path. */
 std::string WriteFile(const std::string& dir, const std::string& name, const std::string& text);
+/* The whole file as bytes ("" when it cannot be read). */
+std::string ReadFile(const std::string& path);
 }  // namespace hallwright::test
 
 #include "hallwright/scene.h"

@@ -37,7 +37,7 @@ const std::vector<SchemaSection>& SceneSchema() {
         {"review", false, {"venue", "flutter_max_angle_deg"}},  // design review (issue 10)
         {"speech", false, {"level_db"}},                        // STI level terms (issue 7)
         {"noise", false, {"octave_db"}},
-        {"output", false, {"spatial_seats", "spatial_per_zone", "hrtf"}},  // spatial files (issue 6)
+        {"output", false, {"spatial_seats", "spatial_per_zone", "hrtf", "reflection_phase"}},  // IR files (issue 6)
     };
     return kSchema;
 }
@@ -634,6 +634,15 @@ std::optional<SceneFile> ParseSceneToml(std::string_view text, const std::string
                                                  "or leave the key out for the default set");
             else
                 scene.output.hrtfPath = resolved;
+        }
+        if (auto v = r.String(*o, "reflection_phase", where)) {
+            if (*v == "random" || *v == "in_phase")
+                scene.output.reflectionsInPhase = *v == "in_phase";
+            else
+                r.Error(r.At(*o->get("reflection_phase")),
+                        "reflection_phase in [output] is \"" + *v + "\"; it must be \"random\" (each reflection "
+                        "of the impulse responses gets an arbitrary phase, the default) or \"in_phase\" (all "
+                        "paths add as positive pressure gains)");
         }
     }
     if (r.Errors() > 0) return std::nullopt;

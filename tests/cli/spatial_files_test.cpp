@@ -9,6 +9,8 @@
 #include <sstream>
 
 #include <gtest/gtest.h>
+
+#include <map>
 #include <nlohmann/json.hpp>
 
 #include "cli/cli_support.h"
@@ -227,6 +229,33 @@ TEST(SpatialSeatsKey, MissingHrtfFileIsAnErrorAtItsLine) {
     EXPECT_NE(r.exitCode, 0);
     EXPECT_NE(r.err.find(scene + ":10:"), std::string::npos) << r.err;
     EXPECT_NE(r.err.find("SOFA"), std::string::npos) << r.err;
+}
+
+TEST(ReflectionPhaseKey, UnknownValueIsAnErrorAtItsLine) {
+    const std::string scene = WriteOneSeatScene("bad_phase", "reflection_phase = \"coherent\"");
+    const auto r = RunHallwright("inspect " + scene);
+    EXPECT_NE(r.exitCode, 0);
+    EXPECT_NE(r.err.find(scene + ":10:"), std::string::npos) << r.err;
+    EXPECT_NE(r.err.find("\"in_phase\""), std::string::npos) << r.err;
+}
+
+// The phase of the reflections is a property of the IRs only: the same run with
+// reflection_phase = "in_phase" writes a different mono IR but the same parameters.csv (the
+// table is the energy sum, response.h).
+TEST(ReflectionPhaseKey, InPhaseChangesTheIrNotTheTable) {
+    std::map<std::string, std::string> wav, table;
+    for (const std::string phase : {"random", "in_phase"}) {
+        const std::string scene = WriteOneSeatScene("phase_" + phase, "reflection_phase = \"" + phase + "\"");
+        const std::string out = fs::path(scene).parent_path().string() + "/out";
+        const auto r = RunHallwright("simulate " + scene + " --rays 2000 --quiet --out " + out);
+        ASSERT_EQ(r.exitCode, 0) << r.err;
+        wav[phase] = test::ReadFile(out + "/ir/mono/src__left.wav");
+        EXPECT_NE(test::ReadFile(out + "/run.json").find("\"reflection_phase\": \"" + phase + "\""), std::string::npos);
+        table[phase] = test::ReadFile(out + "/parameters.csv");
+    }
+    EXPECT_FALSE(wav["random"].empty());
+    EXPECT_NE(wav["random"], wav["in_phase"]);
+    EXPECT_EQ(table["random"], table["in_phase"]);
 }
 
 }  // namespace

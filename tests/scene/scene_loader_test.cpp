@@ -33,7 +33,8 @@ const std::string kEveryKey =
         "[review]\nvenue = \"theatre\"\nflutter_max_angle_deg = 5\n"
         "[speech]\nlevel_db = 66\n"
         "[noise]\noctave_db = [50, 45, 40, 35, 30, 25, 20, 15]\n"
-        "[output]\nspatial_seats = [\"R\", \"Q\"]\nspatial_per_zone = 3\nhrtf = \"ears.sofa\"\n";
+        "[output]\nspatial_seats = [\"R\", \"Q\"]\nspatial_per_zone = 3\nhrtf = \"ears.sofa\"\n"
+        "reflection_phase = \"in_phase\"\n";
 
 // Writes box.obj plus scene.toml into a fresh directory and returns the scene path.
 std::string WriteScene(const std::string& name, const std::string& toml, const std::string& obj = BoxObj(8, 4, 10)) {
@@ -63,6 +64,7 @@ TEST(SceneLoader, MinimalSceneGetsEveryDocumentedDefault) {
     EXPECT_TRUE(scene->output.spatialSeats.empty());
     EXPECT_EQ(scene->output.spatialPerZone, 2);
     EXPECT_TRUE(scene->output.hrtfPath.empty());
+    EXPECT_FALSE(scene->output.reflectionsInPhase);
     ASSERT_EQ(scene->sources.size(), 1u);
     ASSERT_EQ(scene->receivers.size(), 1u);
     const Receiver& r = scene->receivers[0];
@@ -116,6 +118,7 @@ TEST(SceneLoader, ReadsEveryKey) {
     EXPECT_EQ(scene->output.spatialSeats, (std::vector<std::string>{"R", "Q"}));
     EXPECT_EQ(scene->output.spatialPerZone, 3);
     EXPECT_EQ(std::filesystem::path(scene->output.hrtfPath).filename(), "ears.sofa");
+    EXPECT_TRUE(scene->output.reflectionsInPhase);
 }
 
 TEST(SceneLoader, RejectsUnknownKeysWithDidYouMean) {

@@ -67,6 +67,10 @@ struct OutputSettings {
     int spatialPerZone = 2;
     std::string hrtfPath;                    // [output] hrtf: SOFA file ("" = the default set)
     SourceLoc hrtfAt;
+    /* [output] reflection_phase: "random" (default) gives each reflection of the IRs a
+       pseudo-random phase; "in_phase" adds every path as a positive pressure gain
+       (SynthesisContext::coherentReflections). */
+    bool reflectionsInPhase = false;
 };
 
 /* A [[seating]] block: a grid of seats laid over the faces of OBJ groups. */
