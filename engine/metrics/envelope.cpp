@@ -82,11 +82,11 @@ void EnvelopeIntegrator::RefreshTotals() {
     totalMoment_ = binMomentPrefix_[n] + imp_->momentPrefix.back() + TailMomentBefore(1e300);
 }
 
-double EnvelopeIntegrator::EffectiveBinStart(size_t k) const {
+inline double EnvelopeIntegrator::EffectiveBinStart(size_t k) const {
     return std::max(env_->binStartS + k * env_->binWidthS, env_->earliestS);
 }
 
-double EnvelopeIntegrator::BinFraction(size_t k, double t) const {
+inline double EnvelopeIntegrator::BinFraction(size_t k, double t) const {
     const double a = EffectiveBinStart(k), b = env_->binStartS + (k + 1) * env_->binWidthS;
     if (!(b > a)) return t >= b ? 1.0 : 0.0;
     return std::clamp((t - a) / (b - a), 0.0, 1.0);
