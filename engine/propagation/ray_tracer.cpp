@@ -13,6 +13,14 @@
 //      the float error, and accepts the first front-facing hit at any t (a front-facing
 //      surface just behind p means p itself was outside it, so reflecting there is the
 //      correction); back-facing hits are skipped by re-casting past them.
+//   3. Acute corners: a hit within float error of an edge is clamped onto the edge. If the
+//      two faces meeting there enclose less than 90 degrees and the reflected direction runs
+//      into the neighbouring face, p + eps * n_out lies outside that face and the line through
+//      p touches the room only at p (tangent to the corner from outside): both casts miss.
+//      Before such a ray is counted as escaped, the triangles sharing a vertex with the face
+//      just left are tested in double precision; a one-sided one that d enters from its room
+//      side and whose triangle passes within eps of p is hit at p (distance 0). Only rays that
+//      would otherwise escape take this path, so every other ray is traced exactly as before.
 // Triangles with an edge not shared by exactly two triangles (thin panels, openings) are
 // two-sided: they reflect from both sides and are accepted when their plane lies ahead of p
 // in double precision and they are not the face just left.
@@ -132,6 +140,9 @@ struct MaterialData {
 struct Model {
     RTCScene scene = nullptr;
     std::vector<TriangleData> triangles;
+    /* Triangles sharing a welded vertex with triangle i: neighbours[neighbourStart[i] ..
+       neighbourStart[i + 1]), ascending (the acute-corner test, step 3 above). */
+    std::vector<uint32_t> neighbourStart, neighbours;
     std::vector<MaterialData> materials;
     double eps = 1e-5, backoff = 1e-4;
     double airM[kBandCount] = {};
@@ -158,7 +169,7 @@ struct ChunkOut {
     std::vector<HitRecord> hits;
     double absorbed[kBandCount] = {}, air[kBandCount] = {}, escaped[kBandCount] = {},
            remaining[kBandCount] = {}, emitted[kBandCount] = {};
-    int64_t subRays = 0, segments = 0, reflections = 0, escapedRays = 0, fallbackCasts = 0;
+    int64_t subRays = 0, segments = 0, reflections = 0, escapedRays = 0, fallbackCasts = 0, cornerHits = 0;
     std::vector<EscapedRay> escapedSamples;
     std::vector<RawCast>* casts = nullptr;  // benchmark only: first casts of each segment
     std::vector<uint32_t> blockStart;       // hits grouped by receiver block (see TraceSource)
@@ -174,9 +185,8 @@ struct SubRay {
     bool diffuse;      // has had a Lambert event
 };
 
-/* Welds vertices by position and marks triangles with an edge that is not shared by exactly
-   two triangles (thin panels, openings, T-junctions) as two-sided. */
-std::vector<bool> TwoSidedTriangles(const Mesh& mesh) {
+/* Welded vertex ids by position (micrometre grid). */
+std::vector<uint32_t> WeldByPosition(const Mesh& mesh) {
     struct KeyHash {
         size_t operator()(const std::array<int64_t, 3>& k) const {
             return Mix64(static_cast<uint64_t>(k[0]) ^ Mix64(static_cast<uint64_t>(k[1]) ^
@@ -192,6 +202,12 @@ std::vector<bool> TwoSidedTriangles(const Mesh& mesh) {
         auto [it, inserted] = ids.emplace(key, static_cast<uint32_t>(ids.size()));
         weld[i] = it->second;
     }
+    return weld;
+}
+
+/* Marks triangles with an edge that is not shared by exactly two triangles (thin panels,
+   openings, T-junctions) as two-sided. */
+std::vector<bool> TwoSidedTriangles(const Mesh& mesh, const std::vector<uint32_t>& weld) {
     std::map<std::pair<uint32_t, uint32_t>, int> edgeUse;
     auto edge = [&](uint32_t a, uint32_t b) {
         a = weld[a];
@@ -209,13 +225,37 @@ std::vector<bool> TwoSidedTriangles(const Mesh& mesh) {
     return twoSided;
 }
 
+/* Fills the neighbour lists of `m`: per triangle, the other triangles using one of its welded
+   vertices, ascending. */
+void BuildNeighbours(const Mesh& mesh, const std::vector<uint32_t>& weld, Model& m) {
+    const size_t nTri = mesh.TriangleCount();
+    std::vector<std::vector<uint32_t>> byVertex(mesh.vertices.size());
+    for (size_t i = 0; i < nTri; ++i)
+        for (uint32_t v : mesh.triangles[i]) byVertex[weld[v]].push_back(static_cast<uint32_t>(i));
+    m.neighbourStart.assign(nTri + 1, 0);
+    m.neighbours.clear();
+    std::vector<uint32_t> list;
+    for (size_t i = 0; i < nTri; ++i) {
+        list.clear();
+        for (uint32_t v : mesh.triangles[i])
+            for (uint32_t u : byVertex[weld[v]])
+                if (u != i) list.push_back(u);
+        std::sort(list.begin(), list.end());
+        list.erase(std::unique(list.begin(), list.end()), list.end());
+        m.neighbours.insert(m.neighbours.end(), list.begin(), list.end());
+        m.neighbourStart[i + 1] = static_cast<uint32_t>(m.neighbours.size());
+    }
+}
+
 Model BuildModel(const Room& room, const TracerOptions& options) {
     const Mesh& mesh = room.geometry.GetMesh();
     const auto& faces = room.geometry.Faces();
     const auto& triFace = room.geometry.TriangleFace();
     Model m;
     m.scene = static_cast<RTCScene>(room.geometry.Rays().NativeScene());
-    std::vector<bool> twoSided = TwoSidedTriangles(mesh);
+    const std::vector<uint32_t> weld = WeldByPosition(mesh);
+    std::vector<bool> twoSided = TwoSidedTriangles(mesh, weld);
+    BuildNeighbours(mesh, weld, m);
     m.triangles.resize(mesh.TriangleCount());
     for (size_t i = 0; i < mesh.TriangleCount(); ++i) {
         TriangleData& t = m.triangles[i];
@@ -322,10 +362,33 @@ inline double FacingDot(const TriangleData& t, const Vec3& d) {
     return t.n[0] * d.x() + t.n[1] * d.y() + t.n[2] * d.z();
 }
 
+/* Step 3 of the robustness note: a ray that both casts lost, leaving triangle `fromTri` from
+   a point p on an edge or corner of an acute room corner, hits the neighbouring face there. */
+CastResult CornerHit(const Model& m, const Vec3& p, const Vec3& d, int fromTri) {
+    CastResult best;
+    if (fromTri < 0) return best;
+    double bestGap = m.eps;  // p must lie within eps of the neighbour triangle
+    for (uint32_t k = m.neighbourStart[fromTri]; k < m.neighbourStart[fromTri + 1]; ++k) {
+        const TriangleData& t = m.triangles[m.neighbours[k]];
+        // One-sided faces only (a closed room's walls), entered from their room side, with p
+        // on their plane or behind it (outside), at most eps in front.
+        if (t.twoSided || !(FacingDot(t, d) < 0)) continue;
+        const double s = std::max(PlaneDistanceAlong(t, p, d, 0.0), 0.0);
+        if (s * -FacingDot(t, d) > m.eps) continue;
+        const double gap = (ClosestPointOnTriangle(p, t.v0, t.v1, t.v2) - p).norm();
+        if (gap <= bestGap) {
+            if (gap == bestGap && best.found) continue;  // ties: the lowest triangle index
+            bestGap = gap;
+            best = {true, s, static_cast<int>(m.neighbours[k])};
+        }
+    }
+    return best;
+}
+
 /* Next surface from p along d, leaving triangle `fromTri` on the side `nOut` (see the
    robustness note at the top of this file). */
 CastResult NextHit(const Model& m, const Vec3& p, const Vec3& d, int fromTri, const Vec3& nOut,
-                   int64_t& fallbackCasts, std::vector<RawCast>* casts) {
+                   int64_t& fallbackCasts, int64_t& cornerHits, std::vector<RawCast>* casts) {
     RTCIntersectContext ctx;
     RTCRayHit rh;
     const int fromFace = fromTri >= 0 ? m.triangles[fromTri].face : -1;
@@ -352,14 +415,17 @@ CastResult NextHit(const Model& m, const Vec3& p, const Vec3& d, int fromTri, co
         rtcInitIntersectContext(&ctx);
         FillRay(rh, o, d, tnear);
         rtcIntersect1(m.scene, &ctx, &rh);
-        if (rh.hit.geomID == RTC_INVALID_GEOMETRY_ID) return {};
+        if (rh.hit.geomID == RTC_INVALID_GEOMETRY_ID) break;
         const TriangleData& t = m.triangles[rh.hit.primID];
         double s = PlaneDistanceAlong(t, p, d, rh.ray.tfar - m.backoff);
         bool accept = t.twoSided ? (t.face != fromFace && s > 0) : (FacingDot(t, d) < 0);
         if (accept) return {true, std::max(s, 0.0), static_cast<int>(rh.hit.primID)};
         tnear = std::nextafter(rh.ray.tfar, std::numeric_limits<float>::infinity());
     }
-    return {};
+    // Both casts lost the ray: an acute corner, or a real opening.
+    CastResult corner = CornerHit(m, p, d, fromTri);
+    cornerHits += corner.found;
+    return corner;
 }
 
 struct ScoredReceiver {
@@ -410,7 +476,7 @@ void TraceChunk(const Model& m, const ReceiverGrid& grid, const ScoredReceiver* 
                     for (int b = 0; b < kBandCount; ++b) out.remaining[b] += r.e[b];
                     break;
                 }
-                CastResult hit = NextHit(m, r.p, r.d, r.lastTri, nOut, out.fallbackCasts, out.casts);
+                CastResult hit = NextHit(m, r.p, r.d, r.lastTri, nOut, out.fallbackCasts, out.cornerHits, out.casts);
                 ++out.segments;
                 const double segLen = hit.found ? std::min(hit.s, left) : left;
                 // Score the receivers this segment crosses (hybrid rule in ray_tracer.h).
@@ -450,7 +516,7 @@ void TraceChunk(const Model& m, const ReceiverGrid& grid, const ScoredReceiver* 
                     for (int b = 0; b < kBandCount; ++b) out.escaped[b] += r.e[b];
                     ++out.escapedRays;
                     if (opt.keepEscapedRays && out.escapedSamples.size() < kMaxEscapedRecords)
-                        out.escapedSamples.push_back({r.p, r.d, ray});
+                        out.escapedSamples.push_back({r.p, r.d, ray, r.lastTri});
                     break;
                 }
                 if (hit.s >= left) {  // the duration ends inside this segment
@@ -559,6 +625,22 @@ std::vector<RawCast> CollectCasts(const Room& room, int source, const TracerOpti
     }
     if (static_cast<int64_t>(casts.size()) > maxCasts) casts.resize(maxCasts);
     return casts;
+}
+
+std::optional<SurfaceHit> NextSurface(const Room& room, const Vec3& p, const Vec3& d, int lastTriangle) {
+    const Model m = BuildModel(room, TracerOptions{});
+    if (lastTriangle >= static_cast<int>(m.triangles.size())) return std::nullopt;
+    // The side left, as in TraceChunk: the last triangle's normal turned toward d.
+    Vec3 nOut = Vec3::Zero();
+    if (lastTriangle >= 0) {
+        const TriangleData& t = m.triangles[lastTriangle];
+        nOut = Vec3(t.n[0], t.n[1], t.n[2]);
+        if (nOut.dot(d) < 0) nOut = -nOut;
+    }
+    int64_t fallbackCasts = 0, cornerHits = 0;
+    const CastResult hit = NextHit(m, p, d, lastTriangle, nOut, fallbackCasts, cornerHits, nullptr);
+    if (!hit.found) return std::nullopt;
+    return SurfaceHit{hit.tri, hit.s};
 }
 
 int64_t CastRaw(const Room& room, const std::vector<RawCast>& casts) {
@@ -772,6 +854,7 @@ TracerResult TraceSource(const Room& room, int source, const TracerOptions& opti
                 result.reflections += out->reflections;
                 result.escapedRays += out->escapedRays;
                 result.fallbackCasts += out->fallbackCasts;
+                result.cornerHits += out->cornerHits;
                 result.receiverHits += static_cast<int64_t>(out->hits.size());
                 for (const EscapedRay& e : out->escapedSamples)
                     if (result.escapedSamples.size() < kMaxEscapedRecords) result.escapedSamples.push_back(e);

@@ -64,6 +64,7 @@ struct TracerOptions {
 struct EscapedRay {
     Vec3 origin, direction;
     int64_t ray = 0;
+    int lastTriangle = -1;  // mesh triangle the ray left from (-1: the source)
 };
 
 struct TracerResult {
@@ -82,6 +83,7 @@ struct TracerResult {
     int64_t reflections = 0;
     int64_t escapedRays = 0;   // sub-rays that left the model
     int64_t fallbackCasts = 0; // casts repeated by the edge/corner fallback (see .cpp)
+    int64_t cornerHits = 0;    // rays tangent to an acute corner, reflected there (see .cpp)
     int64_t receiverHits = 0;  // receiver-sphere crossings scored
     std::vector<EscapedRay> escapedSamples;  // first kMaxEscapedRecords in ray order
 };
@@ -91,6 +93,17 @@ constexpr size_t kMaxEscapedRecords = 64;
 /* Traces one source of the room and scores every (or the chosen) receiver. */
 TracerResult TraceSource(const Room& room, int source, const TracerOptions& options,
                          Diagnostics& diag);
+
+/* One surface hit found by the tracer's cast: the mesh triangle and the distance along d. */
+struct SurfaceHit {
+    int triangle = -1;
+    double distance = 0;
+};
+
+/* The next surface from p along unit d exactly as the tracer finds it, p being a point of mesh
+   triangle lastTriangle (or a free point, -1); nullopt if the ray leaves the model. For
+   replaying an EscapedRay in tests and diagnostics (builds the tracer's tables on each call). */
+std::optional<SurfaceHit> NextSurface(const Room& room, const Vec3& p, const Vec3& d, int lastTriangle);
 
 /* Default duration: the longest Eyring T over the bands (60 dB of decay) plus the farthest
    source-receiver direct delay; 2 s if the room has no valid volume. */
