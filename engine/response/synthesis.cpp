@@ -464,9 +464,52 @@ struct LateWorkspace {
     std::vector<std::array<float, 4>> eventGain;
     std::vector<size_t> order;
     std::vector<double> target, actual, actualC, targetB, actualB, targetS, actualS, tmp, gain;
+    std::vector<double> weighted, gainLong;
     std::vector<float> y, xb, interp;
     std::vector<std::vector<float>> shared;  // the grid shared by the top band and the one below
 };
+
+/* Energy-correction gain sqrt(S(target) / S(actual)) per point (n = target.size() points):
+   S is a triangular window of 2 x `width` points (two box passes), evaluated on blocks of
+   `block` points and interpolated linearly between block centres; clamped to
+   [1/limit, limit], 1 where either side is empty. */
+void SmoothedRatioGain(const std::vector<double>& target, const std::vector<double>& actual, int block, int width,
+                       double limit, LateWorkspace& ws, std::vector<double>& out) {
+    const int n = static_cast<int>(target.size());
+    const int blocks = (n + block - 1) / block;
+    const int widthB = block == 1 ? width : std::max(3, static_cast<int>(std::lround(static_cast<double>(width) / block)));
+    if (block > 1) {
+        ws.targetB.assign(blocks, 0.0);
+        ws.actualB.assign(blocks, 0.0);
+        for (int i = 0; i < n; ++i) {
+            ws.targetB[i / block] += target[i];
+            ws.actualB[i / block] += actual[i];
+        }
+    }
+    BoxSmooth(block == 1 ? target : ws.targetB, widthB, ws.tmp);
+    BoxSmooth(ws.tmp, widthB, ws.targetS);
+    BoxSmooth(block == 1 ? actual : ws.actualB, widthB, ws.tmp);
+    BoxSmooth(ws.tmp, widthB, ws.actualS);
+    for (int k = 0; k < blocks; ++k) {
+        double g = 1.0;
+        if (ws.actualS[k] > 1e-300 && ws.targetS[k] > 1e-300)
+            g = std::clamp(std::sqrt(ws.targetS[k] / ws.actualS[k]), 1.0 / limit, limit);
+        ws.tmp[k] = g;
+    }
+    out.resize(n);
+    if (block == 1) {
+        std::copy(ws.tmp.begin(), ws.tmp.begin() + n, out.begin());
+        return;
+    }
+    const double centre = 0.5 * (block - 1);
+    for (int i = 0; i < n; ++i) {
+        const double pos = (i - centre) / block;
+        const int k0 = static_cast<int>(std::floor(pos));
+        const double f = pos - k0;
+        const double g0 = ws.tmp[std::clamp(k0, 0, blocks - 1)], g1 = ws.tmp[std::clamp(k0 + 1, 0, blocks - 1)];
+        out[i] = g0 + f * (g1 - g0);
+    }
+}
 
 void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int nOut,
                  const LateGrid& grid, const Encoder& enc, std::vector<std::vector<float>>& outs) {
@@ -725,80 +768,23 @@ void AddLatePart(const ReceiverHistogram& hist, const SynthesisContext& ctx, int
         densityOf(0, ws.actual);
         // On the full grid the gain is computed on blocks of D samples (still >= 6 blocks per
         // box, so the window's shape is kept) and interpolated linearly between block centres.
-        const int block = r == 1 ? std::max(1, width / 6) : 1;
-        const int blocks = (mOut + block - 1) / block;
-        const int widthB = block == 1 ? width : std::max(3, static_cast<int>(std::lround(static_cast<double>(width) / block)));
         std::vector<double>& gain = ws.gain;
-        if (block > 1) {
-            ws.targetB.assign(blocks, 0.0);
-            ws.actualB.assign(blocks, 0.0);
-            for (int n = 0; n < mOut; ++n) {
-                ws.targetB[n / block] += ws.target[n];
-                ws.actualB[n / block] += ws.actual[n];
-            }
-        }
-        // Triangular window of length 2*width: two box passes.
-        BoxSmooth(block == 1 ? ws.target : ws.targetB, widthB, ws.tmp);
-        BoxSmooth(ws.tmp, widthB, ws.targetS);
-        BoxSmooth(block == 1 ? ws.actual : ws.actualB, widthB, ws.tmp);
-        BoxSmooth(ws.tmp, widthB, ws.actualS);
-        for (int k = 0; k < blocks; ++k) {
-            double g = 1.0;
-            if (ws.actualS[k] > 1e-300 && ws.targetS[k] > 1e-300)
-                g = std::clamp(std::sqrt(ws.targetS[k] / ws.actualS[k]), 0.25, 4.0);
-            ws.tmp[k] = g;
-        }
-        if (block == 1) {
-            std::swap(gain, ws.tmp);
-            gain.resize(mOut);
-        } else {
-            gain.resize(mOut);
-            const double centre = 0.5 * (block - 1);
-            for (int n = 0; n < mOut; ++n) {
-                const double pos = (n - centre) / block;
-                const int k0 = static_cast<int>(std::floor(pos));
-                const double f = pos - k0;
-                const double g0 = ws.tmp[std::clamp(k0, 0, blocks - 1)], g1 = ws.tmp[std::clamp(k0 + 1, 0, blocks - 1)];
-                gain[n] = g0 + f * (g1 - g0);
-            }
-        }
+        SmoothedRatioGain(ws.target, ws.actual, r == 1 ? std::max(1, width / 6) : 1, width, 4.0, ws, gain);
         // Second stage on a long time scale: the ratio gain's bias depends on how densely
         // the Dirac responses overlap (none where they are sparse, early; a few per cent where
         // they are dense), so one scalar would leave the early part too loud and the late
         // part too quiet by a few tenths of a dB. Over kLongCorrectionPeriods windows the
         // smoothed energies barely fluctuate, so sqrt(expected / achieved) there removes that
         // drift without a bias of its own and varies far too slowly to touch the band limits.
+        // On blocks of 1/16 of the window.
         {
-            // On blocks of lb grid points (16 per box width), interpolated between block
-            // centres as above: the window is far longer than a block.
             const int longFull = static_cast<int>(std::max(kMinLongCorrectionWindowS,
                                                            kLongCorrectionPeriods / bandwidth) * fs / 2);
             const int longW = std::max(3, static_cast<int>(std::lround(static_cast<double>(longFull) / r)));
-            const int lb = std::max(1, longW / 16);
-            const int nb = (mOut + lb - 1) / lb;
-            const int wb = std::max(3, static_cast<int>(std::lround(static_cast<double>(longW) / lb)));
-            ws.targetB.assign(nb, 0.0);
-            ws.actualB.assign(nb, 0.0);
-            for (int n = 0; n < mOut; ++n) {
-                ws.targetB[n / lb] += ws.target[n];
-                ws.actualB[n / lb] += gain[n] * gain[n] * ws.actual[n];
-            }
-            BoxSmooth(ws.targetB, wb, ws.tmp);
-            BoxSmooth(ws.tmp, wb, ws.targetS);
-            BoxSmooth(ws.actualB, wb, ws.tmp);
-            BoxSmooth(ws.tmp, wb, ws.actualS);
-            for (int k = 0; k < nb; ++k)
-                ws.tmp[k] = (ws.actualS[k] > 1e-300 && ws.targetS[k] > 1e-300)
-                                ? std::clamp(std::sqrt(ws.targetS[k] / ws.actualS[k]), 0.5, 2.0)
-                                : 1.0;
-            const double centre = 0.5 * (lb - 1);
-            for (int n = 0; n < mOut; ++n) {
-                const double pos = (n - centre) / lb;
-                const int k0 = static_cast<int>(std::floor(pos));
-                const double f = pos - k0;
-                const double g0 = ws.tmp[std::clamp(k0, 0, nb - 1)], g1 = ws.tmp[std::clamp(k0 + 1, 0, nb - 1)];
-                gain[n] *= g0 + f * (g1 - g0);
-            }
+            ws.weighted.resize(mOut);
+            for (int n = 0; n < mOut; ++n) ws.weighted[n] = gain[n] * gain[n] * ws.actual[n];
+            SmoothedRatioGain(ws.target, ws.weighted, std::max(1, longW / 16), longW, 2.0, ws, ws.gainLong);
+            for (int n = 0; n < mOut; ++n) gain[n] *= ws.gainLong[n];
         }
         double achieved = 0;
         for (int n = 0; n < mOut; ++n) achieved += gain[n] * gain[n] * ws.actual[n];

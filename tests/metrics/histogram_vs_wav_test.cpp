@@ -12,6 +12,7 @@
 #include <cmath>
 #include <cstdio>
 #include <map>
+#include <memory>
 #include <string>
 #include <vector>
 
@@ -49,36 +50,64 @@ struct Stats {
     int missingHist = 0, missingWav = 0;
 };
 
-TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJndAtEverySeat) {
-    Diagnostics loadDiag;
-    auto room = LoadRoom(test::SourcePath("scenes/theatre/scene.toml"), loadDiag);
-    ASSERT_TRUE(room) << loadDiag.ToString();
-    const Scene& scene = room->scene;
-    std::vector<int> seats(scene.receivers.size());
-    for (size_t i = 0; i < seats.size(); ++i) seats[i] = static_cast<int>(i);
-    ASSERT_GE(seats.size(), 500u);
+/* The stages as `simulate` wires them (cli/simulate.cpp) for source 0 of the demo theatre and
+   the given seats (all when empty): image sources, 16 000 rays (modest: both paths read the
+   same histogram, so its noise is shared), and the synthesis context. */
+struct TheatreRun {
+    std::unique_ptr<Room> room;
+    std::vector<int> seats;
+    std::vector<ReceiverPaths> paths;
+    TracerResult traced;
+    SynthesisContext ctx;
+    std::string error;  // empty when every stage ran
+};
 
-    // Stages as `simulate` wires them (cli/simulate.cpp), for source 0 and every seat.
+constexpr int64_t kTheatreRays = 16000;
+
+TheatreRun RunTheatre(int seatsPerZone) {
+    TheatreRun run;
     Diagnostics diag;
-    const auto paths =
-        ComputeImageSources(scene, room->geometry, 0, seats, ImageSourceOptionsFrom(scene.settings), diag);
-    ASSERT_FALSE(diag.HasErrors()) << diag.ToString();
+    run.room = LoadRoom(test::SourcePath("scenes/theatre/scene.toml"), diag);
+    if (!run.room) {
+        run.error = diag.ToString();
+        return run;
+    }
+    const Scene& scene = run.room->scene;
+    std::map<std::string, std::vector<int>> byZone;
+    for (int i = 0; i < static_cast<int>(scene.receivers.size()); ++i) byZone[scene.receivers[i].zone].push_back(i);
+    for (const auto& [zone, list] : byZone) {
+        const int n = seatsPerZone > 0 ? std::min<int>(seatsPerZone, static_cast<int>(list.size()))
+                                       : static_cast<int>(list.size());
+        for (int k = 0; k < n; ++k) run.seats.push_back(list[(k * list.size()) / n]);
+    }
+    std::sort(run.seats.begin(), run.seats.end());
+    run.paths = ComputeImageSources(scene, run.room->geometry, 0, run.seats, ImageSourceOptionsFrom(scene.settings), diag);
     TracerOptions to;
-    to.rays = 16000;  // modest: both paths read the same histogram, so its noise is shared
+    to.rays = kTheatreRays;
     to.seed = scene.settings.seed;
     to.imageOrder = scene.settings.imageOrder;
     to.durationS = scene.settings.durationS;
-    to.receivers = seats;
-    const TracerResult traced = TraceSource(*room, 0, to, diag);
-    ASSERT_FALSE(diag.HasErrors()) << diag.ToString();
-    ASSERT_EQ(traced.histograms.size(), seats.size());
+    to.receivers = run.seats;
+    run.traced = TraceSource(*run.room, 0, to, diag);
+    if (diag.HasErrors() || run.traced.histograms.size() != run.seats.size()) run.error = diag.ToString();
+    run.ctx.sampleRate = scene.settings.sampleRate;
+    run.ctx.roomVolumeM3 = run.room->geometry.Volume();
+    run.ctx.speedOfSound = SpeedOfSound(scene.air.temperatureC);
+    run.ctx.seed = scene.settings.seed;
+    run.ctx.source = 0;
+    return run;
+}
 
-    SynthesisContext ctx;
-    ctx.sampleRate = scene.settings.sampleRate;
-    ctx.roomVolumeM3 = room->geometry.Volume();
-    ctx.speedOfSound = SpeedOfSound(scene.air.temperatureC);
-    ctx.seed = scene.settings.seed;
-    ctx.source = 0;
+TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJndAtEverySeat) {
+    const TheatreRun run = RunTheatre(0);
+    ASSERT_TRUE(run.error.empty()) << run.error;
+    const Scene& scene = run.room->scene;
+    const std::vector<int>& seats = run.seats;
+    const auto& paths = run.paths;
+    const TracerResult& traced = run.traced;
+    const SynthesisContext& ctx = run.ctx;
+    ASSERT_EQ(seats.size(), scene.receivers.size());
+    ASSERT_GE(seats.size(), 500u);
 
     const std::vector<int> bands = {3, 4, 5};  // 500, 1000, 2000 Hz
     const std::vector<std::string> params = {"EDT", "T20", "T30", "C50", "C80", "D50", "Ts", "G"};
@@ -132,7 +161,7 @@ TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJndAtEverySeat) {
     }
 
     std::printf("%zu seats, %lld rays: WAV path - histogram path, in JND (ISO 3382-1 Table A.1)\n",
-                seats.size(), static_cast<long long>(to.rays));
+                seats.size(), static_cast<long long>(kTheatreRays));
     std::printf("%-5s %5s %9s %9s %9s %6s\n", "param", "band", "mean", "sd", "max|d|", "seats");
     for (const std::string& p : params)
         for (int band : bands) {
@@ -154,12 +183,6 @@ TEST(HistogramVsWavValidation, DemoTheatreMeanBiasWithinQuarterJndAtEverySeat) {
         }
 }
 
-}  // namespace
-}  // namespace hallwright
-
-namespace hallwright {
-namespace {
-
 // LF (ISO 3382-1 A.2.2) from the AmbiX files against the histogram path's LF, 120 seats of the
 // demo theatre (40 per zone), facing as in the scene. The lateral figure-of-eight of the WAV
 // path is -sin(phi) X + cos(phi) Y with phi the source azimuth in the head frame (as the
@@ -171,38 +194,15 @@ namespace {
 // spreads strongly lateral energy over a 45 degree sector and lowers the late part's lateral
 // energy by about a tenth (direct sound + late part alone: 0.153 against 0.169).
 TEST(HistogramVsAmbixValidation, DemoTheatreLfMeanBiasWithinHalfJnd) {
-    Diagnostics loadDiag;
-    auto room = LoadRoom(test::SourcePath("scenes/theatre/scene.toml"), loadDiag);
-    ASSERT_TRUE(room) << loadDiag.ToString();
-    const Scene& scene = room->scene;
-    std::map<std::string, std::vector<int>> byZone;
-    for (int i = 0; i < static_cast<int>(scene.receivers.size()); ++i) byZone[scene.receivers[i].zone].push_back(i);
-    std::vector<int> seats;
-    for (const auto& [zone, list] : byZone) {
-        const int n = std::min<int>(40, static_cast<int>(list.size()));
-        for (int k = 0; k < n; ++k) seats.push_back(list[(k * list.size()) / n]);
-    }
-    std::sort(seats.begin(), seats.end());
+    const TheatreRun run = RunTheatre(40);
+    ASSERT_TRUE(run.error.empty()) << run.error;
+    const Scene& scene = run.room->scene;
+    const std::vector<int>& seats = run.seats;
+    const auto& paths = run.paths;
+    const TracerResult& traced = run.traced;
+    const SynthesisContext& ctx = run.ctx;
     ASSERT_GE(seats.size(), 100u);
 
-    Diagnostics diag;
-    const auto paths =
-        ComputeImageSources(scene, room->geometry, 0, seats, ImageSourceOptionsFrom(scene.settings), diag);
-    TracerOptions to;
-    to.rays = 16000;
-    to.seed = scene.settings.seed;
-    to.imageOrder = scene.settings.imageOrder;
-    to.durationS = scene.settings.durationS;
-    to.receivers = seats;
-    const TracerResult traced = TraceSource(*room, 0, to, diag);
-    ASSERT_FALSE(diag.HasErrors()) << diag.ToString();
-
-    SynthesisContext ctx;
-    ctx.sampleRate = scene.settings.sampleRate;
-    ctx.roomVolumeM3 = room->geometry.Volume();
-    ctx.speedOfSound = SpeedOfSound(scene.air.temperatureC);
-    ctx.seed = scene.settings.seed;
-    ctx.source = 0;
     const std::vector<int> bands = {3, 4, 5};
     std::vector<std::array<double, kBandCount>> hist(seats.size()), wav(seats.size());
     std::vector<std::string> errors(seats.size());
@@ -263,12 +263,6 @@ TEST(HistogramVsAmbixValidation, DemoTheatreLfMeanBiasWithinHalfJnd) {
         EXPECT_LE(std::fabs(meanW - meanH), 0.5 * jnd) << kNominalBandHz[b] << " Hz";
     }
 }
-
-}  // namespace
-}  // namespace hallwright
-
-namespace hallwright {
-namespace {
 
 // The histogram path's decay curve sees the neighbouring bands through the analysis filter's
 // skirts, as the WAV path's class 1 filter does. A synthetic diffuse decay with T = 2 s in the
