@@ -526,7 +526,9 @@ TEST(RayTracerValidation, BandSplittingKeepsPerBandVarianceOfSeparateTracing) {
         // Same expectation (both unbiased): within 4 standard errors of the difference.
         EXPECT_NEAR(mSplit, mAlone, 4 * std::sqrt((vSplit + vAlone) / n)) << "band " << bands[j];
         EXPECT_NEAR(mShared, mAlone, 4 * std::sqrt((vShared + vAlone) / n)) << "band " << bands[j];
-        if (bands[j] == 0) EXPECT_GT(ratioShared, 1.2 * f99);  // the inflation the split avoids
+        if (bands[j] == 0) {
+            EXPECT_GT(ratioShared, 1.2 * f99);  // the inflation the split avoids
+        }
     }
 }
 
@@ -596,7 +598,9 @@ TEST(RayTracer, HybridEqualsTracerAloneWithinIntervals) {
             }
         // Both parts matter here, so a wrong split between them cannot pass unnoticed.
         EXPECT_GT(specularTotal, 0);
-        if (s > 0) EXPECT_GT(tracerTotal, 0.05 * specularTotal);
+        if (s > 0) {
+            EXPECT_GT(tracerTotal, 0.05 * specularTotal);
+        }
     }
 }
 
