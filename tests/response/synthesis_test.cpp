@@ -202,6 +202,7 @@ TEST(SpecularSynthesis, SinglePathAtExactFractionalDelayWithBandEnergy) {
 TEST(SpecularSynthesis, RotatedReflectionKeepsDelayAndBandEnergy) {
     hw::ReceiverPaths paths;
     hw::SpecularPath p;
+    p.arrivalFrom = hw::Vec3(1, 0, 0);
     p.order = 2;
     p.delayS = 0.3123456789;
     const double energies[kBandCount] = {2e-4, 3e-4, 1.5e-4, 1e-4, 1.2e-4, 0.8e-4, 0.5e-4, 0.2e-4};
@@ -240,6 +241,7 @@ TEST(SpecularSynthesis, ReflectionPhasesAddBandEnergiesOnAverage) {
     constexpr double kTau = 0.0013, e1 = 1e-3, e2 = 0.8e-3;
     hw::ReceiverPaths paths;
     hw::SpecularPath d;
+    d.arrivalFrom = hw::Vec3(1, 0, 0);
     d.delayS = 0.05;
     d.energy = Bands::Constant(e1);
     hw::SpecularPath r = d;
