@@ -481,9 +481,11 @@ void SmoothedRatioGain(const std::vector<double>& target, const std::vector<doub
     if (block > 1) {
         ws.targetB.assign(blocks, 0.0);
         ws.actualB.assign(blocks, 0.0);
-        for (int i = 0; i < n; ++i) {
-            ws.targetB[i / block] += target[i];
-            ws.actualB[i / block] += actual[i];
+        for (int k = 0, i = 0; k < blocks; ++k) {
+            double t = 0, a = 0;
+            for (const int end = std::min(n, i + block); i < end; ++i) t += target[i], a += actual[i];
+            ws.targetB[k] = t;
+            ws.actualB[k] = a;
         }
     }
     BoxSmooth(block == 1 ? target : ws.targetB, widthB, ws.tmp);
@@ -501,13 +503,16 @@ void SmoothedRatioGain(const std::vector<double>& target, const std::vector<doub
         std::copy(ws.tmp.begin(), ws.tmp.begin() + n, out.begin());
         return;
     }
-    const double centre = 0.5 * (block - 1);
-    for (int i = 0; i < n; ++i) {
-        const double pos = (i - centre) / block;
-        const int k0 = static_cast<int>(std::floor(pos));
-        const double f = pos - k0;
-        const double g0 = ws.tmp[std::clamp(k0, 0, blocks - 1)], g1 = ws.tmp[std::clamp(k0 + 1, 0, blocks - 1)];
-        out[i] = g0 + f * (g1 - g0);
+    // Between the centres of blocks k and k + 1 (at k block + (block - 1) / 2), the gain runs
+    // linearly from g_k to g_k+1; before the first and after the last centre it stays flat.
+    const double centre = 0.5 * (block - 1), inv = 1.0 / block;
+    const int first = std::min(n, static_cast<int>(std::ceil(centre)));
+    for (int i = 0; i < first; ++i) out[i] = ws.tmp[0];
+    for (int k = 0, i = first; i < n; ++k) {
+        const double g0 = ws.tmp[std::min(k, blocks - 1)], g1 = ws.tmp[std::min(k + 1, blocks - 1)];
+        const double start = centre + static_cast<double>(k) * block;
+        for (const int end = std::min(n, static_cast<int>(std::ceil(start + block))); i < end; ++i)
+            out[i] = g0 + (static_cast<double>(i) - start) * inv * (g1 - g0);
     }
 }
 
