@@ -38,7 +38,7 @@ constexpr double kKaiserBeta = 8.0;
    bandwidth B cannot hold an independent energy per interval shorter than ~1/B. */
 constexpr double kCorrectionBandwidthPeriods = 8.0;
 constexpr double kMinCorrectionWindowS = 0.002;
-/* The second, slow correction stage: 64 periods of the bandwidth, at least 40 ms. */
+/* The second, slow correction stage: 16 periods of the bandwidth, at least 10 ms. */
 constexpr double kLongCorrectionPeriods = 16.0;
 constexpr double kMinLongCorrectionWindowS = 0.010;
 /* Longest IR accepted (memory guard: 8 band buffers of this length are held at once). */
